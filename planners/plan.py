@@ -1,0 +1,197 @@
+"""The plan: a path plus its speed schedule in time, sampled at the control rate.
+
+:func:`planners.timing.time_route` makes a :class:`Plan`; trackers read reference states
+from it and project the robot onto its path; scoring measures errors against it.
+
+Two samplings live side by side:
+
+* in time, one row per control tick ``k`` at ``t = k * dt``: ``pose``, body ``velocity`` and
+  ``accel``, ``curvature`` and arc length ``s``;
+* in arc length, the path geometry ``path_x``, ``path_y`` (separate contiguous arrays so the
+  compiled projection streams through them), ``path_s`` and ``path_heading`` (direction of
+  travel).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from numba import njit
+
+from planners.se2 import wrap
+
+
+@dataclass(frozen=True, eq=False)
+class Plan:
+    """A timed reference for one route.
+
+    Attributes
+    ----------
+    dt : float — control period [s]; ``t[k] == k * dt`` exactly
+    t : ndarray, shape (T,) — time [s]
+    pose : ndarray, shape (T, 3) — x [m], y [m], heading [rad], field frame
+    velocity : ndarray, shape (T, 3) — vx [m/s], vy [m/s], omega [rad/s], body frame
+    accel : ndarray, shape (T, 3) — ax [m/s^2], ay [m/s^2], alpha [rad/s^2], body frame
+        (time derivative of ``velocity``, the body-frame components)
+    curvature : ndarray, shape (T,) — path curvature at the reference point [1/m]
+    s : ndarray, shape (T,) — arc length travelled along the path [m], non-decreasing
+    path_x, path_y : ndarray, shape (M,) — path points by arc length, field frame [m]
+    path_s : ndarray, shape (M,) — arc length of those points [m], increasing
+    path_heading : ndarray, shape (M,) — direction of travel along the path [rad],
+        continuous (unwrapped) so it can be interpolated
+    notes : dict — free-form facts about how the plan was made (binding limits, ...)
+    """
+
+    dt: float
+    t: np.ndarray
+    pose: np.ndarray
+    velocity: np.ndarray
+    accel: np.ndarray
+    curvature: np.ndarray
+    s: np.ndarray
+    path_x: np.ndarray
+    path_y: np.ndarray
+    path_s: np.ndarray
+    path_heading: np.ndarray
+    notes: dict = field(default_factory=dict)
+
+    @property
+    def duration(self) -> float:
+        """Time of the last reference sample [s]."""
+        return float(self.t[-1])
+
+    @property
+    def length(self) -> float:
+        """Path length [m]."""
+        return float(self.path_s[-1])
+
+    @property
+    def final_pose(self) -> np.ndarray:
+        """Last reference pose, shape (1, 3)."""
+        return self.pose[-1:].copy()
+
+    def index(self, t: np.ndarray | float) -> np.ndarray:
+        """Tick index of time ``t``, clipped to the plan, shape like ``t``."""
+        k = np.rint(np.asarray(t, dtype=np.float64) / self.dt).astype(np.int64)
+        return np.clip(k, 0, len(self.t) - 1)
+
+    def sample(self, t: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Reference pose, body velocity and body acceleration at times ``t``.
+
+        Times past the end hold the final pose at rest.
+
+        Parameters
+        ----------
+        t : ndarray, shape (N,) — time [s]
+
+        Returns
+        -------
+        pose, velocity, accel : ndarray, each shape (N, 3)
+        """
+        t = np.atleast_1d(np.asarray(t, dtype=np.float64))
+        k = self.index(t)
+        done = t > self.t[-1]
+        vel = self.velocity[k].copy()
+        acc = self.accel[k].copy()
+        vel[done] = 0.0
+        acc[done] = 0.0
+        return self.pose[k].copy(), vel, acc
+
+
+@njit(cache=True)
+def _project_kernel(px, py, ps, points, s_prev, back, ahead, s_out, d_out):
+    m = px.shape[0]
+    for i in range(points.shape[0]):
+        qx = points[i, 0]
+        qy = points[i, 1]
+        lo_s = s_prev[i] - back
+        hi_s = s_prev[i] + ahead
+        # first segment whose end lies past lo_s (binary search on increasing ps)
+        lo, hi = 0, m - 1
+        while lo < hi:
+            mid = (lo + hi) // 2
+            if ps[mid + 1] < lo_s:
+                lo = mid + 1
+            else:
+                hi = mid
+        best = np.inf
+        best_s = ps[0]
+        best_d = 0.0
+        j = lo
+        while j < m - 1 and ps[j] <= hi_s:
+            ax = px[j]
+            ay = py[j]
+            ex = px[j + 1] - ax
+            ey = py[j + 1] - ay
+            ll = ex * ex + ey * ey
+            u = 0.0
+            if ll > 0.0:
+                u = ((qx - ax) * ex + (qy - ay) * ey) / ll
+                u = min(1.0, max(0.0, u))
+            cx = ax + u * ex - qx
+            cy = ay + u * ey - qy
+            dist2 = cx * cx + cy * cy
+            if dist2 < best:
+                best = dist2
+                best_s = ps[j] + u * (ps[j + 1] - ps[j])
+                # signed: positive when the point lies left of the direction of travel
+                cross = ex * (qy - ay) - ey * (qx - ax)
+                best_d = np.sqrt(dist2) if cross >= 0.0 else -np.sqrt(dist2)
+            j += 1
+        s_out[i] = best_s
+        d_out[i] = best_d
+
+
+def project(
+    plan: Plan,
+    points: np.ndarray,
+    s_prev: np.ndarray,
+    *,
+    back: float = 0.05,
+    ahead: float = 0.5,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Project points onto the plan's path, searching only near earlier progress.
+
+    The search window ``[s_prev - back, s_prev + ahead]`` moves forward with the robot, so
+    a path that comes back near itself does not make the projection jump to a later or
+    earlier pass.
+
+    Parameters
+    ----------
+    plan : Plan
+    points : ndarray, shape (N, 2) — x, y [m], field frame
+    s_prev : ndarray, shape (N,) — arc length of the previous projection [m]
+    back, ahead : float — window behind and ahead of ``s_prev`` [m]
+
+    Returns
+    -------
+    s : ndarray, shape (N,) — arc length of the nearest path point in the window [m]
+    cross_track : ndarray, shape (N,) — signed distance [m], positive left of travel
+    """
+    points = np.ascontiguousarray(points, dtype=np.float64).reshape(-1, 2)
+    s_prev = np.ascontiguousarray(s_prev, dtype=np.float64).reshape(-1)
+    s_out = np.empty(points.shape[0])
+    d_out = np.empty(points.shape[0])
+    _project_kernel(
+        plan.path_x, plan.path_y, plan.path_s, points, s_prev, back, ahead, s_out, d_out
+    )
+    return s_out, d_out
+
+
+def path_state(plan: Plan, s: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Path point and direction of travel at arc lengths ``s``.
+
+    Parameters
+    ----------
+    plan : Plan
+    s : ndarray, shape (N,) — arc length [m]
+
+    Returns
+    -------
+    x, y, heading : ndarray, each shape (N,) — field frame [m, m, rad]
+    """
+    s = np.clip(np.asarray(s, dtype=np.float64), plan.path_s[0], plan.path_s[-1])
+    x = np.interp(s, plan.path_s, plan.path_x)
+    y = np.interp(s, plan.path_s, plan.path_y)
+    return x, y, wrap(np.interp(s, plan.path_s, plan.path_heading))

@@ -1,0 +1,5 @@
+"""``python -m sim`` is the ``skidpad`` command."""
+
+from sim.cli import main
+
+raise SystemExit(main())
