@@ -1,0 +1,252 @@
+"""World: the ground truth of N simulated robots, advanced by ``advance(duty, dt)``."""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Mapping
+
+import numpy as np
+
+from planners.errors import ScenarioError
+from planners.kinematics import ChassisGeometry
+from sim.config_robot import Robot
+from sim.field import Field
+from sim.motors import motor_constants
+from sim.physics import COLUMNS, G0, step_kernel
+from sim.contact import DAMPING_RATIO, STIFFNESS
+
+
+def _replace(robot: Robot, key: str, value: float) -> Robot:
+    head, _, rest = key.partition(".")
+    if rest:
+        return dataclasses.replace(robot, **{head: dataclasses.replace(getattr(robot, head), **{rest: value})})
+    return dataclasses.replace(robot, **{head: value})
+
+
+def robot_row(robot: Robot) -> np.ndarray:
+    """The parameter row (see :data:`sim.physics.COLUMNS`) of one robot."""
+    m = robot.motor
+    nominal = m.nominal_voltage or robot.battery.voltage
+    k = motor_constants(m, nominal)
+    tr = robot.traction
+    values = {
+        "mass": robot.mass,
+        "inertia": robot.yaw_inertia,
+        "mu": tr.mu,
+        "slip_speed": tr.slip_speed,
+        "wheel_radius": robot.wheel_radius,
+        "gear_ratio": robot.gear_ratio,
+        "gear_efficiency": robot.gear_efficiency,
+        "kt": k.kt,
+        "ke": k.ke,
+        "R": k.R,
+        "tau_f": k.tau_f,
+        "current_limit": m.current_limit if m.current_limit is not None else 1e9,
+        "battery_voltage": robot.battery.voltage,
+        "battery_resistance": robot.battery.resistance,
+        "wheel_inertia": robot.wheel_inertia + m.rotor_inertia * robot.gear_ratio**2,
+        "rolling_resistance": tr.rolling_resistance,
+        "roller_friction": tr.roller_friction,
+        "coast": 1.0 if robot.idle == "coast" else 0.0,
+        "model": 0.0 if tr.model == "coulomb" else 1.0,
+        "mf_b": tr.b,
+        "mf_c": tr.c,
+        "mf_e": tr.e,
+        "half_length": robot.footprint[0] / 2.0,
+        "half_width": robot.footprint[1] / 2.0,
+    }
+    return np.array([values[c] for c in COLUMNS])
+
+
+def static_loads(robot: Robot, geom: ChassisGeometry) -> np.ndarray:
+    """Normal load of each wheel at rest [N], shape (W,).
+
+    Linear distribution over the wheel positions that balances the weight and its moments
+    about the centre of gravity ``cg``; a differential chassis's casters are taken to carry
+    no load (common practice for a light caster, no source).
+    """
+    xy = geom.wheel_positions
+    w = len(xy)
+    weight = robot.mass * G0
+    cx, cy = robot.cg
+    sx = float(np.sum(xy[:, 0] ** 2))
+    sy = float(np.sum(xy[:, 1] ** 2))
+    load = np.full(w, weight / w)
+    if sx > 0:
+        load += weight * cx * xy[:, 0] / sx
+    if sy > 0:
+        load += weight * cy * xy[:, 1] / sy
+    return np.clip(load, 0.0, None)
+
+
+def grip_directions(geom: ChassisGeometry) -> np.ndarray:
+    """Per wheel: grip direction (unit, body frame) and rim-speed factor, shape (W, 3)."""
+    if geom.kind == "mecanum":
+        # the vy coefficient of each row of the inverse kinematics: -1, +1, +1, -1
+        s = np.sign(geom.inverse_matrix[:, 1])
+        return np.column_stack([np.full(4, 1 / math.sqrt(2)), s / math.sqrt(2), np.full(4, 1 / math.sqrt(2))])
+    return np.tile([1.0, 0.0, 1.0], (geom.wheels, 1))
+
+
+def _oriented_segments(field: Field | None) -> tuple[np.ndarray, np.ndarray]:
+    if field is None:
+        return np.zeros((0, 4)), np.zeros(0, dtype=np.bool_)
+    segs = []
+    free_left = []
+    for ring, is_boundary in [(field.boundary, True)] + [(o, False) for o in field.obstacles]:
+        r = np.asarray(ring, dtype=np.float64)
+        area = 0.5 * np.sum(r[:, 0] * np.roll(r[:, 1], -1) - np.roll(r[:, 0], -1) * r[:, 1])
+        ccw = area > 0
+        seg = np.hstack([r, np.roll(r, -1, axis=0)])
+        segs.append(seg)
+        # CCW boundary: the floor lies left of each edge; CCW obstacle: right of each edge
+        free_left.append(np.full(len(r), ccw == is_boundary))
+    return np.ascontiguousarray(np.vstack(segs)), np.concatenate(free_left)
+
+
+class World:
+    """Truth state of N robots of one design (parameters may differ per robot).
+
+    Parameters
+    ----------
+    robot : Robot — the nominal robot
+    n : int — number of robots N
+    field : Field, optional — walls for contact and floor friction; None = open floor
+    params : mapping of str -> ndarray (N,), optional — per-robot values of dotted robot keys
+        ("mass", "traction.mu", "motor.stall_torque", ...) overriding the nominal robot
+    substep : float — physics sub-step [s]; :meth:`check_substep` may lower it
+    pose0 : ndarray (N, 3), optional — start poses (default all at the origin)
+
+    Attributes
+    ----------
+    pose : (N, 3) field frame; velocity : (N, 3) body frame [vx, vy, omega];
+    wheel_speed, wheel_angle : (N, W) [rad/s], [rad]; motor_current : (N, W) [A];
+    battery_voltage : (N,) [V]; slip : (N, W) slip speed [m/s];
+    wheel_force : (N, W, 2) floor force on each wheel, body frame [N];
+    contact_count : (N,) new contacts; in_contact : (N,) bool; peak_penetration : (N,) [m];
+    slip_energy : (N,) [J]; diverged : (N,) bool; t : float [s]
+    """
+
+    def __init__(
+        self,
+        robot: Robot,
+        n: int,
+        *,
+        field: Field | None = None,
+        params: Mapping[str, np.ndarray] | None = None,
+        substep: float = 0.001,
+        pose0: np.ndarray | None = None,
+    ) -> None:
+        self.robot = robot
+        self.n = n = int(n)
+        self.geom = ChassisGeometry(
+            kind=robot.chassis, wheel_radius=robot.wheel_radius, track=robot.track,
+            wheelbase=robot.wheelbase, wheels=robot.wheel_count,
+        )
+        w = self.geom.wheels
+        params = dict(params or {})
+        for key, arr in params.items():
+            if np.shape(arr) != (n,):
+                raise ScenarioError(f"world: params[{key!r}] must have shape ({n},), got {np.shape(arr)}")
+        rows, loads = [], []
+        for i in range(n):
+            r = robot
+            for key, arr in params.items():
+                r = _replace(r, key, float(arr[i]))
+            rows.append(robot_row(r))
+            loads.append(static_loads(r, self.geom))
+        self.params = np.ascontiguousarray(np.array(rows).reshape(n, len(COLUMNS)))
+        self.loads = np.ascontiguousarray(np.array(loads).reshape(n, w))
+        self.grip = np.ascontiguousarray(grip_directions(self.geom))
+        self.wheel_xy = np.ascontiguousarray(self.geom.wheel_positions)
+        self.segs, self.free_left = _oriented_segments(field)
+        self.floor_scale = field.friction_scale if field is not None else 1.0
+        patches = field.patches if field is not None else ()
+        kmax = max([len(p.polygon) for p in patches], default=1)
+        self.patch_poly = np.zeros((len(patches), kmax, 2))
+        self.patch_count = np.zeros(len(patches), dtype=np.int64)
+        self.patch_scale = np.ones(len(patches))
+        for q, p in enumerate(patches):
+            self.patch_poly[q, : len(p.polygon)] = p.polygon
+            self.patch_count[q] = len(p.polygon)
+            self.patch_scale[q] = p.friction_scale
+        self.substep, note = self.check_substep(robot, substep)
+        self.notes = [note] if note else []
+        self.pose = np.zeros((n, 3)) if pose0 is None else np.array(pose0, dtype=np.float64).reshape(n, 3)
+        self.velocity = np.zeros((n, 3))
+        self.wheel_speed = np.zeros((n, w))
+        self.wheel_angle = np.zeros((n, w))
+        self.motor_current = np.zeros((n, w))
+        self.battery_voltage = self.params[:, COLUMNS.index("battery_voltage")].copy()
+        self.slip = np.zeros((n, w))
+        self.wheel_force = np.zeros((n, w, 2))
+        self._state_f = np.zeros((n, 3))
+        self._counters = np.zeros((n, 2), dtype=np.int64)
+        self._ticks = 0
+        self.t = 0.0
+
+    @staticmethod
+    def check_substep(robot: Robot, substep: float) -> tuple[float, str | None]:
+        """The sub-step to use and a message when it had to be lowered.
+
+        The wheel spin is implicit, so what bounds the step is the body against the slip
+        stiffness (``h < 2 m vs / (mu m g)``, explicit Euler on ``m dv/dt = -k v`` with
+        ``k = mu m g / vs``) and the contact springs (``h < 2 / omega_c``); a margin of 4 is
+        kept on both (common practice, no source).
+        """
+        tr = robot.traction
+        k_slip = tr.mu * robot.mass * G0 / tr.slip_speed
+        h_slip = 2.0 * robot.mass / k_slip
+        omega_c = math.sqrt(STIFFNESS / robot.mass) * (1 + DAMPING_RATIO)
+        h_contact = 2.0 / omega_c
+        h_max = min(h_slip, h_contact) / 4.0
+        if substep <= h_max:
+            return substep, None
+        return h_max, (
+            f"physics sub-step lowered from {substep * 1e3:g} ms to {h_max * 1e3:.3g} ms for this "
+            f"robot (slip stiffness or contact)"
+        )
+
+    @property
+    def contact_count(self) -> np.ndarray:
+        """New contacts with walls or obstacles so far, shape (N,)."""
+        return self._counters[:, 0].copy()
+
+    @property
+    def diverged(self) -> np.ndarray:
+        """Robots whose state became non-finite (frozen since), shape (N,)."""
+        return self._counters[:, 1] != 0
+
+    @property
+    def in_contact(self) -> np.ndarray:
+        """Touching a wall now, shape (N,)."""
+        return self._state_f[:, 2] > 0
+
+    @property
+    def peak_penetration(self) -> np.ndarray:
+        """Deepest contact penetration so far [m], shape (N,)."""
+        return self._state_f[:, 0].copy()
+
+    @property
+    def slip_energy(self) -> np.ndarray:
+        """Energy dissipated by wheel slip so far [J], shape (N,)."""
+        return self._state_f[:, 1].copy()
+
+    def advance(self, duty: np.ndarray, dt: float) -> None:
+        """Apply ``duty`` (N, W) in [-1, 1] (skid/differential also (N, 2)) for ``dt`` seconds."""
+        d = np.clip(self.geom.expand_duty(duty), -1.0, 1.0)
+        if d.shape != (self.n, self.geom.wheels):
+            raise ValueError(f"duty must have shape ({self.n}, {self.geom.wheels}), got {d.shape}")
+        steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
+        h = dt / steps
+        step_kernel(
+            self.pose, self.velocity, self.wheel_speed, self.wheel_angle, self.motor_current,
+            self.battery_voltage, self.slip, self.wheel_force, self._state_f, self._counters,
+            np.ascontiguousarray(d), self.params, self.wheel_xy, self.grip, self.loads,
+            self.segs, self.free_left, self.patch_poly, self.patch_count, self.patch_scale,
+            self.floor_scale, h, steps,
+        )
+        self._ticks += 1
+        self._dt = dt
+        self.t = self._ticks * dt
