@@ -111,12 +111,14 @@ def step_kernel(
                     elif amps < -ilim:
                         amps = -ilim
                 current[i, j] = amps
+                # motor friction, regularised over 2 rad/s at the shaft
                 fric = tau_f * math.tanh(wm / 2.0)
                 tau = eta * gr * (kt * amps - fric)
-                # d tau / d w through back-EMF (zero when coasting or current-limited)
-                dtau = 0.0
+                # -d tau / d w: friction, and back-EMF unless coasting or current-limited
+                chf = math.cosh(min(abs(wm) / 2.0, 30.0))
+                dtau = eta * gr * gr * tau_f / (2.0 * chf * chf)
                 if not (coast and duty[i, j] == 0.0) and abs(amps) < ilim:
-                    dtau = eta * gr * gr * kt * ke / res
+                    dtau += eta * gr * gr * kt * ke / res
                 vcx = vel[i, 0] - vel[i, 2] * yj
                 vcy = vel[i, 1] + vel[i, 2] * xj
                 f_x, f_y, f_roll, k_roll, vsl = wheel_force(
