@@ -332,9 +332,9 @@ def scenario_from_document(doc: dict, *, where: str, base: Path, source: str = "
 
 
 def _control_params() -> dict[str, Param]:
-    from planners.control import CONTROL_PARAMS
+    from planners.control import WheelController
 
-    return CONTROL_PARAMS
+    return WheelController.PARAMS
 
 
 def _plugin(what: str, table: object, robot: Robot, where: str) -> Plugin:

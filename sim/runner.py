@@ -1,0 +1,252 @@
+"""The run loop: scenario -> plan -> per tick (sensors -> estimator -> tracker -> wheel
+control -> world) -> scorecards and traces, for N robots of one scenario at once.
+
+Run ``k`` of a scenario with base seed ``s`` draws every random number from streams keyed by
+``(s, k)`` (:func:`run_streams`), and every per-robot computation works row by row, so run
+``k`` is bit-identical alone, inside a batch of any size and under any executor.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from planners.control import WheelController, feedforward_from_motor
+from planners.estimators import ESTIMATORS
+from planners.odometry import Odometry
+from planners.plan import Plan
+from sim.planning import geometry, make_plan
+from planners.se2 import wrap
+from planners.trackers import TRACKERS
+from sim.config_robot import Robot
+from sim.scenario import Scenario, robot_value
+from sim.scoring import ScoreKeeper
+from sim.sensors import Sensors
+from sim.trace import Trace, TraceRecorder
+from sim.world import World
+
+#: stream numbers inside one run's SeedSequence
+_VARY, _SENSORS, _ESTIMATOR = 0, 1, 2
+
+
+def run_streams(seed: int, k: int) -> list[np.random.SeedSequence]:
+    """The independent random streams of run ``k`` of base seed ``seed``."""
+    return np.random.SeedSequence(entropy=seed, spawn_key=(k,)).spawn(3)
+
+
+def robot_parameters(scenario: Scenario, runs: Sequence[int]) -> dict[str, np.ndarray]:
+    """Per-run values of the ``[run.vary]`` keys, shape (N,) each, drawn from each run's stream."""
+    out: dict[str, list[float]] = {v.key: [] for v in scenario.run.vary}
+    for k in runs:
+        rng = np.random.default_rng(run_streams(scenario.run.seed, k)[_VARY])
+        for v in scenario.run.vary:
+            out[v.key].append(v.draw(float(robot_value(scenario.robot, v.key)), float(rng.random())))
+    return {key: np.array(vals) for key, vals in out.items()}
+
+
+@dataclass
+class RunResult:
+    """The outcome of one run: its index, scorecard and (when kept) trace column."""
+
+    run: int
+    scorecard: dict
+
+
+class Simulation:
+    """N runs of one scenario, stepped together in one World.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    runs : sequence of int — run indices k (one robot each)
+    keep : sequence of int — run indices whose full trace is recorded
+    plan : Plan, optional — reuse a plan already made for this scenario
+    """
+
+    def __init__(
+        self,
+        scenario: Scenario,
+        runs: Sequence[int] = (0,),
+        *,
+        keep: Sequence[int] = (),
+        plan: Plan | None = None,
+    ) -> None:
+        self.scenario = sc = scenario
+        self.runs = np.asarray(list(runs), dtype=np.int64)
+        n = self.n = len(self.runs)
+        robot = sc.robot
+        self.plan = plan if plan is not None else make_plan(sc)
+        self.dt = 1.0 / sc.run.rate
+        self.geom = geometry(robot)
+        self.params = robot_parameters(sc, self.runs)
+        pose0 = np.tile(np.asarray(sc.route.start, dtype=np.float64), (n, 1))
+        self.world = World(robot, n, field=sc.field, params=self.params, substep=sc.run.substep, pose0=pose0)
+        streams = [run_streams(sc.run.seed, int(k)) for k in self.runs]
+        self.sensors = Sensors(sc.sensors, field=sc.field, wheel_count=robot.wheel_count, dt=self.dt)
+        self.sensors.reset([np.random.default_rng(s[_SENSORS]) for s in streams], pose0)
+        self.estimator = ESTIMATORS.get(sc.estimator.kind)(
+            geometry=self.geom, sensors=sc.sensors, field=sc.field, dt=self.dt, **sc.estimator.params
+        )
+        self._needs_truth = getattr(self.estimator, "NEEDS_TRUTH", False)
+        self.estimator.reset(pose0, n, rngs=[np.random.default_rng(s[_ESTIMATOR]) for s in streams])
+        self.odometry = None
+        if sc.sensors.encoders is not None:
+            self.odometry = Odometry(
+                source="encoders", forward=self.geom.forward_matrix,
+                counts_per_rev=sc.sensors.encoders.counts_per_rev,
+            )
+            self.odometry.reset(pose0)
+        self.tracker = TRACKERS.get(sc.tracker.kind)(chassis=robot.chassis, **sc.tracker.params)
+        self.tracker.reset(self.plan, n)
+        m = robot.motor
+        ff = feedforward_from_motor(
+            free_speed=m.free_speed, stall_torque=m.stall_torque, stall_current=m.stall_current,
+            free_current=m.free_current, voltage=m.nominal_voltage or robot.battery.voltage,
+            gear_ratio=robot.gear_ratio, gear_efficiency=robot.gear_efficiency,
+            mass_share=robot.mass / robot.wheel_count, wheel_radius=robot.wheel_radius,
+            wheel_inertia=robot.wheel_inertia, rotor_inertia=m.rotor_inertia, wheels=robot.wheel_count,
+        )
+        self.wheels = WheelController(
+            wheels=robot.wheel_count, dt=self.dt, voltage=robot.battery.voltage, motor=ff, **sc.control
+        )
+        self.wheels.reset(n)
+        self.timeout = sc.run.timeout_for(self.plan.duration)
+        self.max_ticks = int(math.ceil(self.timeout / self.dt)) + 1
+        self.score = ScoreKeeper(self.plan, n, self.max_ticks)
+        keep_cols = [i for i, k in enumerate(self.runs) if int(k) in set(int(x) for x in keep)]
+        self.recorder = TraceRecorder(
+            np.array(keep_cols, dtype=np.int64), self.runs[keep_cols], self.max_ticks, robot.wheel_count,
+            meta={"scenario": sc.title, "seed": sc.run.seed, "dt": self.dt, "wheels": robot.wheel_count},
+        )
+        self.k = 0
+        self.status = ["running"] * n
+        self.cause = [""] * n
+        self.status_time = np.zeros(n)
+        self.end_tick = np.zeros(n, dtype=np.int64)
+        self.active = np.ones(n, dtype=bool)
+        self.estimate = pose0.copy()
+        self.covariance: np.ndarray | None = None
+        self.command = None
+        self.final_estimate = pose0.copy()
+        self.final_true = pose0.copy()
+        self.final_odometry = pose0.copy()
+        self._prev_counts: np.ndarray | None = None
+        self.notes = list(sc.notes) + list(self.world.notes)
+
+    @property
+    def t(self) -> float:
+        """Time of the current tick [s] (exactly k * dt)."""
+        return self.k * self.dt
+
+    def _measured_wheel_speed(self, readings) -> np.ndarray:
+        counts = readings.encoder_counts
+        if counts is None:
+            return self.world.wheel_speed.copy()
+        cpr = self.scenario.sensors.encoders.counts_per_rev
+        if self._prev_counts is None:
+            self._prev_counts = counts.copy()
+        speed = (counts - self._prev_counts) * (2.0 * math.pi / cpr) / self.dt
+        self._prev_counts = counts.copy()
+        return speed
+
+    def step(self) -> bool:
+        """Advance every active robot by one control tick; False once every run has ended."""
+        if not self.active.any():
+            return False
+        t = self.t
+        w = self.world
+        readings = self.sensors.read(t, w.pose, w.wheel_angle)
+        readings.battery_voltage = w.battery_voltage.copy()
+        if self._needs_truth:
+            readings.truth = w.pose.copy()
+        measured = self._measured_wheel_speed(readings)
+        self.estimate = self.estimator.update(t, readings)
+        self.covariance = getattr(self.estimator, "covariance", None)
+        if self.odometry is not None:
+            self.odometry.update(readings)
+        velocity_est = self.geom.forward(measured)
+        cmd = self.tracker.command(t, self.estimate, velocity_est)
+        self.command = cmd
+        if cmd.duty is not None:
+            duty = self.geom.expand_duty(cmd.duty)
+            target = np.full_like(measured, np.nan)
+        else:
+            target = self.geom.inverse(cmd.velocity)
+            duty = self.wheels.duty(target, self.geom.inverse(cmd.accel), measured, w.battery_voltage)
+        duty = np.where(self.active[:, None], duty, 0.0)
+        self.score.update(
+            self.k, t, self.active, w.pose, self.estimate, self.covariance, duty, w.motor_current, w.battery_voltage
+        )
+        ref, _, _ = self.plan.sample(np.full(self.n, t))
+        self.recorder.record(
+            self.k, t, pose=w.pose, velocity=w.velocity, estimate=self.estimate, covariance=self.covariance,
+            reference=ref, command=cmd.velocity, target=cmd.target, duty=duty, wheel_speed=w.wheel_speed,
+            wheel_target=target, current=w.motor_current, slip=w.slip, battery=w.battery_voltage,
+            cross_track=self.score.cross_track, fix=readings.fix_if_new() if hasattr(readings, "fix_if_new") else None,
+        )
+        self._judge(t, cmd)
+        w.advance(duty, self.dt)
+        self.k += 1
+        return bool(self.active.any())
+
+    def _end(self, i: int, status: str, t: float, cause: str) -> None:
+        self.status[i] = status
+        self.cause[i] = cause
+        self.status_time[i] = t
+        self.end_tick[i] = self.k
+        self.active[i] = False
+        self.final_estimate[i] = self.estimate[i]
+        self.final_true[i] = self.world.pose[i]
+        if self.odometry is not None:
+            self.final_odometry[i] = self.odometry.pose[i]
+
+    def _judge(self, t: float, cmd) -> None:
+        w = self.world
+        sc = self.scenario
+        goal = self.plan.final_pose[0]
+        pos_err = np.hypot(w.pose[:, 0] - goal[0], w.pose[:, 1] - goal[1])
+        head_err = np.abs(wrap(w.pose[:, 2] - goal[2]))
+        speed = np.hypot(w.velocity[:, 0], w.velocity[:, 1])
+        script_done = cmd.duty is not None and getattr(self.tracker, "finished", lambda t: False)(t)
+        for i in np.flatnonzero(self.active):
+            if w.diverged[i]:
+                self._end(i, "diverged", t, "non-finite state in the physics")
+            elif sc.run.collision == "stop" and w.contact_count[i] > 0:
+                self._end(i, "collided", t, "touched a wall or obstacle")
+            elif script_done:
+                self._end(i, "completed", t, "voltage script finished")
+            elif (
+                cmd.duty is None
+                and t >= self.plan.duration
+                and pos_err[i] <= sc.run.goal_tolerance
+                and head_err[i] <= sc.run.heading_tolerance
+                and speed[i] <= sc.run.settle_speed
+                and abs(w.velocity[i, 2]) <= 0.1
+            ):
+                self._end(i, "completed", t, "reached the end pose and settled")
+            elif t + self.dt > self.timeout + 1e-12:
+                self._end(i, "timeout", t, f"not settled at the end pose after {self.timeout:g} s")
+
+    def run(self) -> list[RunResult]:
+        """Step until every run has ended; return one result per run."""
+        while self.step():
+            pass
+        return self.results()
+
+    def results(self) -> list[RunResult]:
+        """Scorecards of every run (call after the runs have ended)."""
+        w = self.world
+        odo = self.final_odometry if self.odometry is not None else None
+        cards = self.score.scorecards(
+            status=self.status, status_time=self.status_time, cause=self.cause,
+            final_true=self.final_true, final_estimate=self.final_estimate, collisions=w.contact_count,
+            penetration=w.peak_penetration, slip_energy=w.slip_energy, odometry_final=odo,
+        )
+        return [RunResult(run=int(k), scorecard=c) for k, c in zip(self.runs, cards)]
+
+    def trace(self) -> Trace:
+        """The recorded trace of the kept runs."""
+        return self.recorder.finish(self.end_tick)
