@@ -115,11 +115,12 @@ def _project_kernel(px, py, ps, points, s_prev, back, ahead, s_out, d_out):
                 lo = mid + 1
             else:
                 hi = mid
+        lo = max(0, min(lo, m - 2))  # a window past either end still searches the end segment
         best = np.inf
         best_s = ps[0]
         best_d = 0.0
         j = lo
-        while j < m - 1 and ps[j] <= hi_s:
+        while j < m - 1 and (ps[j] <= hi_s or j == lo):
             ax = px[j]
             ay = py[j]
             ex = px[j + 1] - ax
