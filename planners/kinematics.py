@@ -98,12 +98,13 @@ class ChassisGeometry:
         -------
         ndarray, shape (N, W) — wheel speeds [rad/s]
         """
-        return np.asarray(twist, dtype=np.float64).reshape(-1, 3) @ self.inverse_matrix.T
+        tw = np.asarray(twist, dtype=np.float64).reshape(-1, 3)
+        return _rows_times(tw, self.inverse_matrix)
 
     def forward(self, wheel_speeds: np.ndarray) -> np.ndarray:
         """Body twist from wheel speeds, shape (N, W) -> (N, 3)."""
         w = np.asarray(wheel_speeds, dtype=np.float64).reshape(-1, self.wheels)
-        return w @ self.forward_matrix.T
+        return _rows_times(w, self.forward_matrix)
 
     def expand_duty(self, duty: np.ndarray) -> np.ndarray:
         """Duty per wheel (N, W); skid and differential also accept (N, 2) [left, right]."""
@@ -118,3 +119,9 @@ class ChassisGeometry:
             + (" (or 2: left, right)" if self.kind != "mecanum" else "")
             + f", got {d.shape[1]}"
         )
+
+
+def _rows_times(rows: np.ndarray, matrix: np.ndarray) -> np.ndarray:
+    """``rows @ matrix.T`` computed row by row, so a robot's result never depends on the batch
+    size (BLAS picks different summation orders for different shapes)."""
+    return np.sum(rows[:, None, :] * matrix[None, :, :], axis=2)

@@ -113,7 +113,11 @@ class Simulation:
             wheels=robot.wheel_count, dt=self.dt, voltage=robot.battery.voltage, motor=ff, **sc.control
         )
         self.wheels.reset(n)
+        until = getattr(self.tracker, "until", None)
+        self.script_end = float(until[-1]) if until is not None else None
         self.timeout = sc.run.timeout_for(self.plan.duration)
+        if self.script_end is not None and sc.run.timeout is None:
+            self.timeout = max(self.timeout, self.script_end + 1.0)
         self.max_ticks = int(math.ceil(self.timeout / self.dt)) + 1
         self.score = ScoreKeeper(self.plan, n, self.max_ticks)
         keep_cols = [i for i, k in enumerate(self.runs) if int(k) in set(int(x) for x in keep)]
@@ -210,7 +214,7 @@ class Simulation:
         pos_err = np.hypot(w.pose[:, 0] - goal[0], w.pose[:, 1] - goal[1])
         head_err = np.abs(wrap(w.pose[:, 2] - goal[2]))
         speed = np.hypot(w.velocity[:, 0], w.velocity[:, 1])
-        script_done = cmd.duty is not None and getattr(self.tracker, "finished", lambda t: False)(t)
+        script_done = cmd.duty is not None and self.script_end is not None and t >= self.script_end
         for i in np.flatnonzero(self.active):
             if w.diverged[i]:
                 self._end(i, "diverged", t, "non-finite state in the physics")
