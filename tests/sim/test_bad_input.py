@@ -71,7 +71,7 @@ CASES = [
     ("string-for-number", "robot.gear_ratio", "fast", ["robot.gear_ratio must be a number", "'fast'"]),
     ("unknown-chassis", "robot.chassis", "omni", ["robot.chassis must be one of", "'mecanum'", "'omni'"]),
     ("unknown-tracker", "tracker.kind", "pure-persuit", ["tracker.kind must be one of", "did you mean pure-pursuit?"]),
-    ("unknown-estimator", "estimator.kind", "kalmann", ["estimator.kind must be one of", "did you mean kalman?"]),
+    ("unknown-estimator", "estimator.kind", "truht", ["estimator.kind must be one of", "did you mean truth?"]),
     ("waypoint-outside", "route.waypoint.1.at", [5.0, 1.0], ["route.waypoint[1].at must lie on the free floor", "outside"]),
     ("waypoint-in-obstacle", "route.waypoint.1.at", [2.2, 2.2], ["route.waypoint[1].at", "inside obstacle 1"]),
     ("identical-waypoints", "route.waypoint.1.at", [2.0, 0.8], ["route.waypoint[1].at must differ"]),
