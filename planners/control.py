@@ -1,0 +1,546 @@
+"""Wheel control: feedforward from kS, kV, kA, PI(D) feedback on wheel speed, LQR synthesis.
+
+One control tick, per wheel ``j`` of robot ``i`` (wheel speeds are wheel-shaft angular speeds
+[rad/s], positive driving the robot forward on differential and skid chassis)::
+
+    u_ff = kS sign(w*) + kV w* + kA a*                          [V]
+    u_fb = kP e + I + kD (a* - a_meas),   e = w* - w_meas      [V]
+    duty = (u_ff + u_fb) / V_batt                               [-]
+
+then every robot's wheel vector is scaled down together when any wheel passes |duty| = 1, so
+the chassis keeps the direction of its motion and only slows down. The integral ``I`` is
+clamped to ``+-i_limit`` and does not integrate on a wheel whose robot saturated while the
+error pushes further into saturation (conditional integration, anti-windup).
+
+Both terms are in volts and divided by the *measured* battery voltage, so the gains do not
+change as the battery sags.
+
+The constants kS [V], kV [V s/rad], kA [V s^2/rad] come from ``[control]`` or, when absent,
+from the motor datasheet through :func:`feedforward_from_motor`. kP and kI, when absent,
+come from :func:`velocity_lqr` (discrete LQR on the first-order velocity model with Bryson's
+weights) and :func:`simc_integral_gain` (Skogestad's SIMC rule for the integral time).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+import scipy.linalg
+from numba import njit
+
+from planners.errors import ScenarioError
+from planners.params import Param
+
+
+@dataclass(frozen=True)
+class Feedforward:
+    """Feedforward constants of the wheels of one robot.
+
+    Attributes
+    ----------
+    kS : ndarray, shape (W,) — static friction voltage [V]
+    kV : ndarray, shape (W,) — back-EMF voltage per wheel speed [V s/rad]
+    kA : ndarray, shape (W,) — voltage per wheel acceleration [V s^2/rad]
+    voltage : float — the voltage the constants were derived at [V]
+    """
+
+    kS: np.ndarray
+    kV: np.ndarray
+    kA: np.ndarray
+    voltage: float
+
+    @property
+    def free_speed(self) -> np.ndarray:
+        """Wheel speed reached at ``voltage`` with no load, shape (W,) [rad/s]."""
+        return (self.voltage - self.kS) / self.kV
+
+    @property
+    def time_constant(self) -> np.ndarray:
+        """First-order time constant kA / kV, shape (W,) [s]."""
+        return self.kA / self.kV
+
+
+def feedforward_from_motor(
+    *,
+    free_speed: float | np.ndarray,
+    stall_torque: float | np.ndarray,
+    stall_current: float | np.ndarray,
+    free_current: float | np.ndarray,
+    voltage: float,
+    gear_ratio: float | np.ndarray,
+    gear_efficiency: float | np.ndarray = 1.0,
+    mass_share: float | np.ndarray,
+    wheel_radius: float | np.ndarray,
+    wheel_inertia: float | np.ndarray = 0.0,
+    rotor_inertia: float | np.ndarray = 0.0,
+    wheels: int = 1,
+) -> Feedforward:
+    r"""Derive kS, kV, kA of each wheel from a brushed DC motor's datasheet.
+
+    Motor model (figures at the shaft, before the gearbox, all at ``voltage``): armature
+    resistance :math:`R = V / I_s`; a constant friction torque :math:`\tau_f = k_t I_f`
+    carried by the no-load current, so that at stall :math:`\tau_s = k_t (I_s - I_f)`,
+    giving :math:`k_t = \tau_s / (I_s - I_f)`; back-EMF from the free-running point
+    :math:`V = R I_f + k_e \omega_f`, giving :math:`k_e = (V - R I_f) / \omega_f`.
+
+    Drive: motor speed :math:`\omega_m = G \omega_w` (``gear_ratio`` G is motor turns per
+    wheel turn); the gearbox passes :math:`\eta G` times its input torque to the wheel. The
+    wheel accelerates its load :math:`J_L = m_{share} r^2 + J_{wheel}` (``mass_share``: the
+    part of the robot mass one wheel pushes on a straight run, e.g. mass / W) and the rotor
+    :math:`J_r` (before the gearbox, so without gear losses). Torque balance at the shaft,
+    :math:`k_t I = \tau_f + (J_r G + J_L / (\eta G)) \dot\omega_w`, and the voltage
+    :math:`V = R I + k_e G \omega_w` give
+
+    .. math::
+
+        V = \underbrace{R I_f}_{k_S} \operatorname{sign}(\omega_w)
+            + \underbrace{k_e G}_{k_V} \omega_w
+            + \underbrace{\tfrac{R}{k_t}\left(J_r G + \tfrac{J_L}{\eta G}\right)}_{k_A}
+              \dot\omega_w ,
+
+    so :math:`k_S + k_V \omega_f / G = V`: full voltage reaches the free speed.
+
+    Parameters
+    ----------
+    free_speed : float or ndarray (W,) — no-load motor speed [rad/s, motor shaft]
+    stall_torque : float or ndarray (W,) — [N m, motor shaft]
+    stall_current, free_current : float or ndarray (W,) — [A]
+    voltage : float — voltage of the datasheet figures (the nominal battery voltage) [V]
+    gear_ratio : float or ndarray (W,) — motor turns per wheel turn
+    gear_efficiency : float or ndarray (W,) — torque efficiency of the gearbox (0, 1]
+    mass_share : float or ndarray (W,) — robot mass one wheel accelerates [kg]
+    wheel_radius : float or ndarray (W,) — [m]
+    wheel_inertia : float or ndarray (W,) — the wheel's own moment of inertia [kg m^2]
+    rotor_inertia : float or ndarray (W,) — motor rotor moment of inertia [kg m^2]
+    wheels : int — W, the number of wheels the scalars are broadcast to
+
+    Returns
+    -------
+    Feedforward — kS [V], kV [V s/rad], kA [V s^2/rad] per wheel, shape (W,)
+
+    Raises
+    ------
+    ScenarioError
+        When the currents are not 0 <= free_current < stall_current or a value is not
+        positive.
+
+    Examples
+    --------
+    >>> ff = feedforward_from_motor(free_speed=600.0, stall_torque=0.2, stall_current=20.0,
+    ...     free_current=0.5, voltage=12.0, gear_ratio=20.0, mass_share=2.5,
+    ...     wheel_radius=0.05, wheels=2)
+    >>> bool(np.allclose(ff.kS + ff.kV * 600.0 / 20.0, 12.0))
+    True
+    """
+    shape = (int(wheels),)
+    a = {
+        k: np.broadcast_to(np.asarray(v, dtype=np.float64), shape).copy()
+        for k, v in dict(
+            free_speed=free_speed, stall_torque=stall_torque, stall_current=stall_current,
+            free_current=free_current, gear_ratio=gear_ratio, gear_efficiency=gear_efficiency,
+            mass_share=mass_share, wheel_radius=wheel_radius, wheel_inertia=wheel_inertia,
+            rotor_inertia=rotor_inertia,
+        ).items()
+    }
+    for key in ("free_speed", "stall_torque", "stall_current", "gear_ratio", "gear_efficiency"):
+        if not np.all(a[key] > 0.0):
+            raise ScenarioError(f"motor: {key} must be > 0, got {a[key].tolist()}")
+    if not voltage > 0.0:
+        raise ScenarioError(f"motor: voltage must be > 0, got {voltage!r}")
+    if not np.all((a["free_current"] >= 0.0) & (a["free_current"] < a["stall_current"])):
+        raise ScenarioError(
+            "motor: free_current must be >= 0 and < stall_current, "
+            f"got {a['free_current'].tolist()}"
+        )
+    resistance = voltage / a["stall_current"]
+    kt = a["stall_torque"] / (a["stall_current"] - a["free_current"])
+    ke = (voltage - resistance * a["free_current"]) / a["free_speed"]
+    g, eta = a["gear_ratio"], a["gear_efficiency"]
+    j_load = a["mass_share"] * a["wheel_radius"] ** 2 + a["wheel_inertia"]
+    ks = resistance * a["free_current"]
+    kv = ke * g
+    ka = resistance / kt * (a["rotor_inertia"] * g + j_load / (eta * g))
+    return Feedforward(kS=ks, kV=kv, kA=ka, voltage=float(voltage))
+
+
+# ---------------------------------------------------------------- gain synthesis
+
+
+def discretise_first_order(kV: float, kA: float, dt: float) -> tuple[float, float]:
+    """Exact zero-order-hold discretisation of ``kA dw/dt + kV w = u``.
+
+    Parameters
+    ----------
+    kV : float — [V s/rad], > 0
+    kA : float — [V s^2/rad], > 0
+    dt : float — sample period [s]
+
+    Returns
+    -------
+    Ad, Bd : float — ``w[k+1] = Ad w[k] + Bd u[k]``: ``Ad = exp(-kV dt / kA)``,
+        ``Bd = (1 - Ad) / kV`` [rad/s per V]
+    """
+    ad = float(np.exp(-kV / kA * dt))
+    return ad, (1.0 - ad) / kV
+
+
+def discretise(a: np.ndarray, b: np.ndarray, dt: float) -> tuple[np.ndarray, np.ndarray]:
+    """Exact zero-order-hold discretisation of ``dx/dt = A x + B u``.
+
+    Uses the matrix exponential of the block matrix ``[[A, B], [0, 0]] dt`` (Van Loan 1978).
+
+    Parameters
+    ----------
+    a : ndarray, shape (n, n)
+    b : ndarray, shape (n, m)
+    dt : float — [s]
+
+    Returns
+    -------
+    Ad : ndarray, shape (n, n)
+    Bd : ndarray, shape (n, m)
+    """
+    a = np.atleast_2d(np.asarray(a, dtype=np.float64))
+    b = np.asarray(b, dtype=np.float64).reshape(a.shape[0], -1)
+    n, m = b.shape
+    block = np.zeros((n + m, n + m))
+    block[:n, :n] = a * dt
+    block[:n, n:] = b * dt
+    e = scipy.linalg.expm(block)
+    return e[:n, :n], e[:n, n:]
+
+
+def bryson(max_state: np.ndarray | float, max_input: np.ndarray | float) -> tuple[np.ndarray, np.ndarray]:
+    """Bryson's rule: diagonal weights ``1 / max^2`` (Bryson & Ho, *Applied Optimal Control*, 1975).
+
+    Parameters
+    ----------
+    max_state : array_like, shape (n,) — largest acceptable value of each state
+    max_input : array_like, shape (m,) — largest acceptable value of each input
+
+    Returns
+    -------
+    Q : ndarray, shape (n, n)
+    R : ndarray, shape (m, m)
+    """
+    xs = np.atleast_1d(np.asarray(max_state, dtype=np.float64))
+    us = np.atleast_1d(np.asarray(max_input, dtype=np.float64))
+    return np.diag(1.0 / xs**2), np.diag(1.0 / us**2)
+
+
+def dlqr(
+    a: np.ndarray, b: np.ndarray, q: np.ndarray, r: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Infinite-horizon discrete LQR: the gain minimising sum x'Qx + u'Ru, u = -K x.
+
+    Solves the discrete algebraic Riccati equation with
+    :func:`scipy.linalg.solve_discrete_are` and forms ``K = (R + B'PB)^-1 B'PA``.
+
+    Parameters
+    ----------
+    a : ndarray, shape (n, n)
+    b : ndarray, shape (n, m)
+    q : ndarray, shape (n, n)
+    r : ndarray, shape (m, m)
+
+    Returns
+    -------
+    K : ndarray, shape (m, n)
+    P : ndarray, shape (n, n) — the Riccati solution
+    """
+    a = np.atleast_2d(np.asarray(a, dtype=np.float64))
+    b = np.asarray(b, dtype=np.float64).reshape(a.shape[0], -1)
+    q = np.atleast_2d(np.asarray(q, dtype=np.float64))
+    r = np.atleast_2d(np.asarray(r, dtype=np.float64))
+    p = scipy.linalg.solve_discrete_are(a, b, q, r)
+    k = np.linalg.solve(r + b.T @ p @ b, b.T @ p @ a)
+    return k, p
+
+
+def velocity_lqr(
+    kV: np.ndarray | float,
+    kA: np.ndarray | float,
+    dt: float,
+    *,
+    max_error: np.ndarray | float,
+    max_effort: np.ndarray | float,
+) -> np.ndarray:
+    """Proportional wheel-speed gain from discrete LQR on the first-order velocity model.
+
+    Model ``dw/dt = A w + B u`` with ``A = -kV / kA``, ``B = 1 / kA`` (u in volts),
+    discretised exactly (:func:`discretise_first_order`); weights by Bryson's rule,
+    ``Q = 1 / max_error^2``, ``R = 1 / max_effort^2``.
+
+    Parameters
+    ----------
+    kV, kA : float or ndarray, shape (W,)
+    dt : float — control period [s]
+    max_error : float or ndarray (W,) — speed error worth full effort [rad/s]
+    max_effort : float or ndarray (W,) — [V]
+
+    Returns
+    -------
+    ndarray, shape (W,) (the broadcast shape of the inputs, at least 1-D) — kP [V s/rad]
+    """
+    kv, ka, em, um = np.broadcast_arrays(
+        *(np.atleast_1d(np.asarray(x, dtype=np.float64)) for x in (kV, kA, max_error, max_effort))
+    )
+    out = np.empty(kv.shape)
+    for j in np.ndindex(kv.shape):
+        ad, bd = discretise_first_order(kv[j], ka[j], dt)
+        q, r = bryson(em[j], um[j])
+        out[j] = dlqr(np.array([[ad]]), np.array([[bd]]), q, r)[0][0, 0]
+    return out
+
+
+def simc_integral_gain(
+    kP: np.ndarray | float, kV: np.ndarray | float, kA: np.ndarray | float, dt: float
+) -> np.ndarray:
+    """Integral gain by Skogestad's SIMC rule for the integral time.
+
+    Skogestad, *Simple analytic rules for model reduction and PID controller tuning*,
+    J. Process Control 13 (2003), eq. (22): ``tau_I = min(tau_1, 4 (tau_c + theta))``, here
+    with the plant time constant ``tau_1 = kA / kV``, no dead time, and ``tau_c`` the
+    closed-loop time constant the gain kP gives on the discretised model.
+
+    Parameters
+    ----------
+    kP, kV, kA : float or ndarray, shape (W,)
+    dt : float — [s]
+
+    Returns
+    -------
+    ndarray, shape (W,) — kI = kP / tau_I [V/rad]
+    """
+    kp, kv, ka = np.broadcast_arrays(
+        *(np.atleast_1d(np.asarray(x, dtype=np.float64)) for x in (kP, kV, kA))
+    )
+    ad = np.exp(-kv / ka * dt)
+    pole = ad - (1.0 - ad) / kv * kp
+    # a pole at or below zero settles within about one tick
+    tau_c = np.where(pole > 0.0, -dt / np.log(np.clip(pole, 1e-300, 1.0 - 1e-15)), dt)
+    tau_i = np.minimum(ka / kv, 4.0 * tau_c)
+    return kp / tau_i
+
+
+# ---------------------------------------------------------------- the loop
+
+
+@njit(cache=True)
+def _wheel_kernel(
+    target, accel, measured, vbatt, ks, kv, ka, kp, ki, kd, ilim, dt, d_alpha,
+    integ, dfilt, prev, primed, out,
+):
+    n, w = target.shape
+    u = np.empty(w)
+    for i in range(n):
+        vb = max(vbatt[i], 1e-6)
+        peak = 0.0
+        for j in range(w):
+            e = target[i, j] - measured[i, j]
+            # derivative on measurement, first-order filtered
+            if primed[i] and kd[i, j] != 0.0:
+                raw = (measured[i, j] - prev[i, j]) / dt
+                dfilt[i, j] += d_alpha * (raw - dfilt[i, j])
+            prev[i, j] = measured[i, j]
+            ff = ks[i, j] * np.sign(target[i, j]) + kv[i, j] * target[i, j] + ka[i, j] * accel[i, j]
+            fb = kp[i, j] * e + kd[i, j] * (accel[i, j] - dfilt[i, j])
+            trial = min(ilim[i, j], max(-ilim[i, j], integ[i, j] + ki[i, j] * e * dt))
+            u[j] = ff + fb + trial
+            peak = max(peak, abs(u[j]) / vb)
+            out[i, j] = trial  # keep the trial integral until saturation is known
+        primed[i] = True
+        saturated = peak > 1.0
+        for j in range(w):
+            e = target[i, j] - measured[i, j]
+            if saturated and e * u[j] > 0.0:
+                # conditional integration: hold the integral pushing into saturation
+                u[j] += integ[i, j] - out[i, j]
+            else:
+                integ[i, j] = out[i, j]
+        peak = 0.0
+        for j in range(w):
+            peak = max(peak, abs(u[j]) / vb)
+        scale = 1.0 / peak if peak > 1.0 else 1.0
+        for j in range(w):
+            out[i, j] = min(1.0, max(-1.0, u[j] / vb * scale))
+
+
+def _p(dimension: str, default: Any, doc: str, **kw: Any) -> Param:
+    return Param(dimension=dimension, default=default, doc=doc, **kw)
+
+
+class WheelController:
+    """Per-wheel velocity loop of N robots: feedforward + PI(D), common saturation scaling.
+
+    Parameters
+    ----------
+    wheels : int — W, wheels per robot
+    dt : float — control period [s]
+    voltage : float — nominal battery voltage [V] (Bryson's effort bound, default i_limit)
+    motor : Feedforward, optional — constants derived from the motor
+        (:func:`feedforward_from_motor`), used for each of kS, kV, kA not given
+    **params
+        The ``[control]`` keys of :attr:`PARAMS`, in SI. A gain is a float, an array of
+        shape (W,) (per wheel) or (N, W) (per robot and wheel, e.g. randomised).
+
+    Raises
+    ------
+    ScenarioError
+        For an unknown key, or a kS/kV/kA neither given nor derivable.
+
+    Examples
+    --------
+    >>> ctl = WheelController(wheels=2, dt=0.005, voltage=12.0, kS=0.2, kV=0.4, kA=0.04)
+    >>> ctl.reset(1)
+    >>> ctl.duty(np.full((1, 2), 10.0), np.zeros((1, 2)), np.full((1, 2), 10.0),
+    ...          np.array([12.0])).round(4)
+    array([[0.35, 0.35]])
+    """
+
+    PARAMS: ClassVar[dict[str, Param]] = {
+        "kS": _p("voltage", None, "static friction voltage (default: from the motor)", ge=0.0),
+        "kV": _p("dimensionless", None, "V per rad/s of wheel speed (default: from the motor)", gt=0.0),
+        "kA": _p("dimensionless", None, "V per rad/s^2 of wheel accel (default: from the motor)", gt=0.0),
+        "kP": _p("dimensionless", None, "V per rad/s of speed error (default: discrete LQR)", ge=0.0),
+        "kI": _p("dimensionless", None, "V per rad of integrated speed error (default: SIMC)", ge=0.0),
+        "kD": _p("dimensionless", 0.0, "V per rad/s^2 of accel error (derivative on measurement)", ge=0.0),
+        "d_filter": _p("time", 0.01, "time constant of the measured-accel filter", ge=0.0),
+        "i_limit": _p("voltage", None, "bound on the integral term (default: a quarter of the battery)", ge=0.0),
+        "max_error": _p("angular_speed", None, "LQR/Bryson: largest speed error (default: 20 % of free speed)", gt=0.0),
+        "max_effort": _p("voltage", None, "LQR/Bryson: largest correction (default: the battery voltage)", gt=0.0),
+    }
+
+    def __init__(
+        self,
+        *,
+        wheels: int,
+        dt: float,
+        voltage: float,
+        motor: Feedforward | None = None,
+        **params: Any,
+    ) -> None:
+        from planners.trackers.base import resolve_params  # here: trackers import control
+
+        p = resolve_params("control", self.PARAMS, params)
+        self.wheels = int(wheels)
+        self.dt = float(dt)
+        self.voltage = float(voltage)
+        derived = {} if motor is None else {"kS": motor.kS, "kV": motor.kV, "kA": motor.kA}
+        for key in ("kS", "kV", "kA"):
+            if p[key] is None:
+                if key not in derived:
+                    raise ScenarioError(
+                        f"control: {key} must be given or derived from [robot.motor], got nothing"
+                    )
+                p[key] = derived[key]
+        gains = ("kS", "kV", "kA", "kP", "kI", "kD", "i_limit", "max_error", "max_effort")
+        for key in gains:
+            arr = np.asarray(0.0 if p[key] is None else p[key], dtype=np.float64)
+            if arr.ndim > 2 or (arr.ndim >= 1 and arr.shape[-1] not in (1, self.wheels)):
+                raise ScenarioError(
+                    f"control: {key} must be a number, one per wheel ({self.wheels}) or "
+                    f"(N, {self.wheels}), got shape {arr.shape}"
+                )
+        if p["kP"] is None or p["kI"] is None:
+            ks, kv, ka = np.broadcast_arrays(
+                *(np.asarray(p[k], dtype=np.float64) for k in ("kS", "kV", "kA"))
+            )
+            max_error = p["max_error"]
+            if max_error is None:
+                max_error = 0.2 * (self.voltage - ks) / kv
+            max_effort = self.voltage if p["max_effort"] is None else p["max_effort"]
+            if p["kP"] is None:
+                p["kP"] = velocity_lqr(kv, ka, self.dt, max_error=max_error, max_effort=max_effort)
+            if p["kI"] is None:
+                p["kI"] = simc_integral_gain(p["kP"], kv, ka, self.dt)
+        if p["i_limit"] is None:
+            p["i_limit"] = 0.25 * self.voltage
+        self.params = p
+        if all(np.ndim(p[k]) < 2 for k in self.PARAMS if p[k] is not None):
+            self.reset(0)
+        else:  # per-robot gains: the batch size is known at reset
+            self._integ = None
+
+    @property
+    def gains(self) -> dict[str, np.ndarray]:
+        """The resolved kS, kV, kA, kP, kI, kD, i_limit (float or (W,) or (N, W))."""
+        keys = ("kS", "kV", "kA", "kP", "kI", "kD", "i_limit")
+        return {k: np.asarray(self.params[k], dtype=np.float64) for k in keys}
+
+    def reset(self, n: int) -> None:
+        """Start N robots at rest: integrals, filters and previous speeds cleared.
+
+        Raises
+        ------
+        ScenarioError
+            When a per-robot gain of shape (N', W) does not match ``n``.
+        """
+        shape = (int(n), self.wheels)
+        self._g = {
+            k: np.ascontiguousarray(np.broadcast_to(_per_wheel(v, shape, k), shape))
+            for k, v in self.gains.items()
+        }
+        self._integ = np.zeros(shape)
+        self._dfilt = np.zeros(shape)
+        self._prev = np.zeros(shape)
+        self._primed = np.zeros(shape[0], dtype=np.bool_)
+        tau = self.params["d_filter"]
+        self._d_alpha = 1.0 if tau <= 0.0 else float(1.0 - np.exp(-self.dt / tau))
+
+    @property
+    def integral(self) -> np.ndarray:
+        """Integral term of each wheel, shape (N, W) [V]."""
+        return self._integ.copy()
+
+    def duty(
+        self,
+        target_speed: np.ndarray,
+        target_accel: np.ndarray,
+        measured_speed: np.ndarray,
+        battery_voltage: np.ndarray,
+    ) -> np.ndarray:
+        """One tick of the wheel loop.
+
+        Parameters
+        ----------
+        target_speed : ndarray, shape (N, W) — wheel speed targets [rad/s]
+        target_accel : ndarray, shape (N, W) — wheel acceleration feedforward [rad/s^2]
+        measured_speed : ndarray, shape (N, W) — wheel speeds from the encoders [rad/s]
+        battery_voltage : ndarray, shape (N,) — measured battery voltage [V]
+
+        Returns
+        -------
+        ndarray, shape (N, W) — duty in [-1, 1]; a robot's vector is scaled down together
+        """
+        if self._integ is None:
+            raise RuntimeError("WheelController.duty: call reset(n) first")
+        shape = self._integ.shape
+        args = [
+            np.ascontiguousarray(np.broadcast_to(np.asarray(x, dtype=np.float64), shape))
+            for x in (target_speed, target_accel, measured_speed)
+        ]
+        vb = np.ascontiguousarray(
+            np.broadcast_to(np.asarray(battery_voltage, dtype=np.float64).reshape(-1), shape[:1])
+        )
+        g = self._g
+        out = np.empty(shape)
+        _wheel_kernel(
+            args[0], args[1], args[2], vb, g["kS"], g["kV"], g["kA"], g["kP"], g["kI"],
+            g["kD"], g["i_limit"], self.dt, self._d_alpha, self._integ, self._dfilt,
+            self._prev, self._primed, out,
+        )
+        return out
+
+
+def _per_wheel(value: np.ndarray, shape: tuple[int, int], key: str) -> np.ndarray:
+    value = np.asarray(value, dtype=np.float64)
+    try:
+        return np.broadcast_to(value, shape)
+    except ValueError:
+        raise ScenarioError(
+            f"control: {key} must be a number, one per wheel ({shape[1]}) or one row per robot "
+            f"({shape[0]}, {shape[1]}), got shape {value.shape}"
+        ) from None
