@@ -49,6 +49,22 @@ UNITS: dict[str, dict[str, float]] = {
     "inertia": {"kg*m^2": 1.0, "kg m^2": 1.0, "g*cm^2": 1e-7},
     "force": {"N": 1.0, "lbf": _LBF},
     "percent": {"%": 0.01},
+    # gyro white rate noise (angle random walk, IEEE Std 952-1997 coefficient N)
+    "rate_noise_density": {
+        "rad/s/sqrt(Hz)": 1.0,
+        "rad/sqrt(s)": 1.0,
+        "deg/s/sqrt(Hz)": math.pi / 180.0,
+        "deg/h/sqrt(Hz)": math.pi / 180.0 / 3600.0,
+        "deg/sqrt(h)": math.pi / 180.0 / 60.0,
+    },
+    # gyro bias random walk (rate random walk, IEEE Std 952-1997 coefficient K)
+    "rate_random_walk": {
+        "rad/s^2/sqrt(Hz)": 1.0,
+        "rad/s/sqrt(s)": 1.0,
+        "deg/s^2/sqrt(Hz)": math.pi / 180.0,
+        "deg/s/sqrt(s)": math.pi / 180.0,
+        "deg/h/sqrt(h)": math.pi / 180.0 / 3600.0 / 60.0,
+    },
     "count": {},
     "dimensionless": {},
 }

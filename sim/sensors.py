@@ -1,0 +1,351 @@
+"""Sensor models of N robots: encoders, pods, IMU, absolute fixes and range sensors.
+
+:class:`Sensors` reads the World's truth once per control tick and returns
+:class:`planners.readings.Readings`. Truth comes as plain arrays: ``pose`` (N, 3) field
+frame and ``wheel_angle`` (N, W), each wheel's accumulated rotation [rad] (slip included,
+so encoders see wheel spin as on a real robot).
+
+Between ticks the body is taken to move along the constant-twist arc joining the two
+poses (``log`` of the relative pose); pods and the gyro measure that arc exactly, before
+their own errors. Every random number of robot k comes from ``rngs[k]``
+(:mod:`sim.sensors_noise`). Sample schedules are the same for every robot: a sensor with
+rate f has sample instants ``j / f`` after the start and reports at the first tick at or
+after each.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+from numba import njit
+
+from planners import se2
+from planners.odometry import pod_matrix
+from planners.readings import Readings
+from sim.config_sensors import SensorSuite
+from sim.field import Field, ray_cast_kernel
+from sim.sensors_noise import NoiseBuffer
+
+_TWO_PI = 2.0 * np.pi
+
+
+@njit(cache=True)
+def _encoder_kernel(wheel_angle, counts_per_rad, noise, quantise, z, z0, out):
+    for i in range(wheel_angle.shape[0]):
+        for j in range(wheel_angle.shape[1]):
+            c = wheel_angle[i, j] * counts_per_rad
+            if noise > 0.0:
+                c += noise * z[i, z0 + j]
+            out[i, j] = np.floor(c) if quantise else c
+
+
+@njit(cache=True)
+def _pod_kernel(twist, row, counts_per_m, scale, noise, skip, quantise, z, z0, u, u0, acc, out):
+    # pod travel of one tick: s = a . xi,  a = [cos d, sin d, x sin d - y cos d]
+    for i in range(twist.shape[0]):
+        for j in range(row.shape[0]):
+            s = row[j, 0] * twist[i, 0] + row[j, 1] * twist[i, 1] + row[j, 2] * twist[i, 2]
+            lost = skip[j] > 0.0 and u[i, u0 + j] < skip[j]
+            if not lost:
+                acc[i, j] += s * (1.0 + scale[i, j]) * counts_per_m[j]
+            c = acc[i, j]
+            if noise[j] > 0.0:
+                c += noise[j] * z[i, z0 + j]
+            out[i, j] = np.floor(c) if quantise[j] else c
+
+
+@njit(cache=True)
+def _imu_kernel(dtheta, due, interval, density, walk, bias, scale, z, z0, acc, out):
+    for i in range(dtheta.shape[0]):
+        acc[i] += dtheta[i]
+        if not due:
+            out[i] = np.nan
+            continue
+        # bias random walk: b += K sqrt(T) w;  white rate noise: N / sqrt(T) w
+        # (IEEE Std 952-1997: angle random walk N, rate random walk K)
+        if walk > 0.0:
+            bias[i] += walk * np.sqrt(interval) * z[i, z0 + 1]
+        r = (1.0 + scale[i]) * acc[i] / interval + bias[i]
+        if density > 0.0:
+            r += density / np.sqrt(interval) * z[i, z0]
+        out[i] = r
+        acc[i] = 0.0
+
+
+class Sensors:
+    """Every sensor of N robots of one scenario.
+
+    Parameters
+    ----------
+    config : SensorSuite — the scenario's ``[sensors]`` tables
+    field : Field — walls, obstacles and landmarks (fixes, range sensors)
+    wheel_count : int — drive wheels W of the chassis
+    dt : float — control period [s]; :meth:`read` is called once per tick
+
+    Examples
+    --------
+    >>> from sim.config_sensors import Encoders
+    >>> box = Field(name="box", boundary=np.array([[0, 0], [3, 0], [3, 3], [0, 3.0]]))
+    >>> s = Sensors(SensorSuite(encoders=Encoders(counts_per_rev=100)), field=box,
+    ...             wheel_count=2, dt=0.01)
+    >>> s.reset([np.random.default_rng(1)], np.zeros((1, 3)))
+    >>> s.read(0.0, np.zeros((1, 3)), np.array([[np.pi, -0.01]])).encoder_counts
+    array([[50., -1.]])
+    """
+
+    def __init__(self, config: SensorSuite, *, field: Field, wheel_count: int, dt: float) -> None:
+        if not dt > 0.0:
+            raise ValueError(f"sensors: dt must be > 0, got {dt!r}")
+        self.config = config
+        self.field = field
+        self.wheel_count = int(wheel_count)
+        self.dt = float(dt)
+        c = config
+        # slots of each tick's draws; a zero-noise sensor draws nothing
+        self._zslot: dict[str, int] = {}
+        self._uslot: dict[str, int] = {}
+        nz = nu = 0
+        if c.encoders is not None and c.encoders.noise > 0.0:
+            self._zslot["enc"], nz = nz, nz + self.wheel_count
+        if any(p.noise > 0.0 for p in c.pods):
+            self._zslot["pod"], nz = nz, nz + len(c.pods)
+        if any(p.skip > 0.0 for p in c.pods):
+            self._uslot["pod"], nu = nu, nu + len(c.pods)
+        if c.imu is not None:
+            self._zslot["imu"], nz = nz, nz + 2
+        if c.fixes is not None:
+            self._zslot["fix"], nz = nz, nz + 3
+            if c.fixes.dropout > 0.0:
+                self._uslot["fix"], nu = nu, nu + 1
+        if any(r.sigma > 0.0 for r in c.range):
+            self._zslot["range"], nz = nz, nz + len(c.range)
+        self._nz, self._nu = nz, nu
+        if c.pods:
+            self._pod_row = np.ascontiguousarray(
+                pod_matrix(np.array([p.at for p in c.pods]), np.array([p.direction for p in c.pods]))
+            )
+            self._pod_cpm = np.array([p.counts_per_rev / (_TWO_PI * p.radius) for p in c.pods])
+            self._pod_noise = np.array([p.noise for p in c.pods])
+            self._pod_skip = np.array([p.skip for p in c.pods])
+            self._pod_quant = np.array([p.quantise for p in c.pods])
+        if c.range:
+            self.range_mounts = np.array([[*r.at, r.direction] for r in c.range], dtype=np.float64)
+            self.range_max = np.array([r.max_range for r in c.range], dtype=np.float64)
+        if c.fixes is not None:
+            f = c.fixes
+            self.fix_sigma = np.array([f.sigma_xy, f.sigma_xy, f.sigma_heading])
+            self._lag = int(round(f.latency / self.dt))
+        else:
+            self._lag = 0
+        self.reset([], np.zeros((0, 3)))
+
+    # ------------------------------------------------------------------ state
+    def reset(
+        self,
+        rngs: Sequence[np.random.Generator],
+        pose0: np.ndarray,
+        *,
+        t0: float = 0.0,
+        per_robot: Mapping[str, np.ndarray] | None = None,
+    ) -> None:
+        """Start N robots: one generator each, true start poses (N, 3).
+
+        Parameters
+        ----------
+        rngs : sequence of numpy.random.Generator, length N — robot k's own stream
+        pose0 : ndarray, shape (N, 3) — true start poses, field frame
+        t0 : float — time of tick 0 [s]; the first :meth:`read` is at ``t0``
+        per_robot : mapping, optional
+            Per-robot values replacing the config's: ``"imu.bias"`` (N,) [rad/s],
+            ``"imu.scale_error"`` (N,), ``"pods.scale_error"`` (N, P).
+        """
+        pose0 = np.ascontiguousarray(pose0, dtype=np.float64)
+        n = len(rngs)
+        if pose0.shape != (n, 3):
+            raise ValueError(f"sensors: pose0 must have shape ({n}, 3), got {pose0.shape}")
+        c = self.config
+        self.n = n
+        self.t0 = float(t0)
+        self._k = -1
+        self._noise = NoiseBuffer(rngs, normals=self._nz, uniforms=self._nu)
+        self._prev = pose0.copy()
+        self._hist = np.repeat(pose0[None], self._lag + 1, axis=0)
+        over = dict(per_robot or {})
+        allowed = ("imu.bias", "imu.scale_error", "pods.scale_error")
+        for key in over:
+            if key not in allowed:
+                raise ValueError(f"sensors: per_robot key must be one of {allowed}, got {key!r}")
+
+        def pick(key: str, default: np.ndarray) -> np.ndarray:
+            v = np.array(over.get(key, default), dtype=np.float64)
+            if v.shape != default.shape:
+                raise ValueError(f"sensors: per_robot[{key!r}] must have shape {default.shape}, got {v.shape}")
+            return np.ascontiguousarray(v)
+
+        if c.pods:
+            self._pod_scale = pick("pods.scale_error", np.tile([p.scale_error for p in c.pods], (n, 1)))
+            self._pod_acc = np.zeros((n, len(c.pods)))
+        if c.imu is not None:
+            self._bias = pick("imu.bias", np.full(n, c.imu.bias))
+            self._imu_scale = pick("imu.scale_error", np.full(n, c.imu.scale_error))
+            self._imu_acc = np.zeros(n)
+            self._imu_last = 0
+
+    # ------------------------------------------------------------------ schedule
+    def _due(self, k: int, rate: float | None) -> bool:
+        if rate is None or k == 0:
+            return True
+        # sample instants j / rate; report at the first tick at or after each
+        a = np.floor(k * self.dt * rate + 1e-9)
+        b = np.floor((k - 1) * self.dt * rate + 1e-9)
+        return bool(a > b)
+
+    # ------------------------------------------------------------------ read
+    def read(self, t: float, pose: np.ndarray, wheel_angle: np.ndarray) -> Readings:
+        """Readings of tick ``k`` at ``t = t0 + k dt`` (call every tick, from k = 0).
+
+        Parameters
+        ----------
+        t : float — time [s]
+        pose : ndarray, shape (N, 3) — true poses, field frame
+        wheel_angle : ndarray, shape (N, W) — accumulated wheel rotation [rad]
+
+        Returns
+        -------
+        Readings
+        """
+        k = self._k + 1
+        if abs(t - (self.t0 + k * self.dt)) > 1e-6 * self.dt:
+            raise ValueError(
+                f"sensors: t must be the next control tick {self.t0 + k * self.dt!r}, got {t!r}"
+            )
+        pose = np.ascontiguousarray(pose, dtype=np.float64)
+        n, c = self.n, self.config
+        if pose.shape != (n, 3):
+            raise ValueError(f"sensors: pose must have shape ({n}, 3), got {pose.shape}")
+        self._k = k
+        z, u = self._noise.tick(k)
+        self._hist[k % (self._lag + 1)] = pose
+        out = Readings(t=float(t))
+        twist = None
+        if c.pods or c.imu is not None:
+            twist = np.ascontiguousarray(se2.log(se2.between(self._prev, pose)))
+        if c.encoders is not None:
+            wa = np.ascontiguousarray(wheel_angle, dtype=np.float64)
+            if wa.shape != (n, self.wheel_count):
+                raise ValueError(
+                    f"sensors: wheel_angle must have shape ({n}, {self.wheel_count}), got {wa.shape}"
+                )
+            e = c.encoders
+            out.encoder_counts = np.empty((n, self.wheel_count))
+            _encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z,
+                            self._zslot.get("enc", 0), out.encoder_counts)
+        if c.pods:
+            out.pod_counts = np.empty((n, len(c.pods)))
+            _pod_kernel(twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
+                        self._pod_skip, self._pod_quant, z, self._zslot.get("pod", 0), u,
+                        self._uslot.get("pod", 0), self._pod_acc, out.pod_counts)
+        if c.imu is not None:
+            self._read_imu(k, twist, z, out)
+        if c.fixes is not None:
+            self._read_fix(k, z, u, out)
+        if c.range:
+            self._read_range(k, pose, z, out)
+        self._prev = pose.copy()
+        return out
+
+    def _read_imu(self, k: int, twist: np.ndarray, z: np.ndarray, out: Readings) -> None:
+        imu = self.config.imu
+        due = k > 0 and self._due(k, imu.rate)
+        interval = (k - self._imu_last) * self.dt if due else 0.0
+        out.gyro_rate = np.empty(self.n)
+        _imu_kernel(np.ascontiguousarray(twist[:, 2]), due, max(interval, 1e-300), imu.rate_noise,
+                    imu.bias_walk, self._bias, self._imu_scale, z, self._zslot["imu"],
+                    self._imu_acc, out.gyro_rate)
+        if due:
+            self._imu_last = k
+        out.imu_valid = np.full(self.n, due)
+        out.gyro_interval = np.full(self.n, interval)
+
+    def _read_fix(self, k: int, z: np.ndarray, u: np.ndarray, out: Readings) -> None:
+        f, n = self.config.fixes, self.n
+        kc = k - self._lag
+        out.fix = np.full((n, 3), np.nan)
+        out.fix_time = np.full(n, np.nan)
+        out.fix_sigma = self.fix_sigma.copy()
+        valid = np.zeros(n, dtype=np.bool_)
+        lm = self.field.landmark_xy
+        if kc >= 0 and lm.shape[0] and self._due(k, f.rate):
+            seen = self._pose_then(kc)
+            valid = self.landmark_visible(seen).any(axis=1)
+            if "fix" in self._uslot:
+                valid &= u[:, self._uslot["fix"]] >= f.dropout
+            noisy = seen + self.fix_sigma * z[:, self._zslot["fix"]:self._zslot["fix"] + 3]
+            noisy[:, 2] = se2.wrap(noisy[:, 2])
+            out.fix[valid] = noisy[valid]
+            out.fix_time[valid] = self.t0 + kc * self.dt
+        out.fix_valid = valid
+
+    def _pose_then(self, kc: int) -> np.ndarray:
+        return self._hist[kc % (self._lag + 1)].copy()
+
+    def landmark_visible(self, pose: np.ndarray) -> np.ndarray:
+        """Which landmarks the fix camera sees from each pose.
+
+        Parameters
+        ----------
+        pose : ndarray, shape (N, 3) — field frame
+
+        Returns
+        -------
+        ndarray of bool, shape (N, L) — within range, inside the field of view and not
+        hidden behind a wall or obstacle
+        """
+        f = self.config.fixes
+        lm = self.field.landmark_xy
+        rel = lm[None, :, :] - pose[:, None, :2]
+        dist = np.hypot(rel[..., 0], rel[..., 1])
+        bearing = np.arctan2(rel[..., 1], rel[..., 0])
+        ok = np.ones(dist.shape, dtype=np.bool_)
+        if f.range is not None:
+            ok &= dist <= f.range
+        if f.fov < 2.0 * np.pi:
+            off = se2.wrap(bearing - pose[:, None, 2] - f.direction)
+            ok &= np.abs(off) <= f.fov / 2.0
+        origin = np.ascontiguousarray(np.repeat(pose[:, :2], lm.shape[0], axis=0))
+        hit = np.empty(origin.shape[0])
+        ray_cast_kernel(self.field.segments, origin, np.ascontiguousarray(bearing.reshape(-1)),
+                        np.inf, hit)
+        # a landmark on a wall is hit at its own distance; anything nearer hides it
+        ok &= hit.reshape(dist.shape) >= dist * (1.0 - 1e-9) - 1e-9
+        return ok
+
+    def _read_range(self, k: int, pose: np.ndarray, z: np.ndarray, out: Readings) -> None:
+        n, r = self.n, len(self.config.range)
+        due = np.array([self._due(k, s.rate) for s in self.config.range])
+        out.range_mounts = self.range_mounts.copy()
+        out.range_max = self.range_max.copy()
+        out.ranges = np.full((n, r), np.nan)
+        out.range_valid = np.repeat(due[None], n, axis=0)
+        if not due.any():
+            return
+        d = self.true_ranges(pose)
+        if "range" in self._zslot:
+            sigma = np.array([s.sigma for s in self.config.range])
+            zs = z[:, self._zslot["range"]:self._zslot["range"] + r]
+            d = np.where(np.isfinite(d), np.maximum(d + sigma * zs, 0.0), d)
+        out.ranges[:, due] = d[:, due]
+
+    def true_ranges(self, pose: np.ndarray) -> np.ndarray:
+        """Noise-free range of every sensor from each pose, shape (N, R) [m] (inf beyond max)."""
+        m = self.range_mounts
+        c, s = np.cos(pose[:, 2:3]), np.sin(pose[:, 2:3])
+        ox = pose[:, 0:1] + c * m[None, :, 0] - s * m[None, :, 1]
+        oy = pose[:, 1:2] + s * m[None, :, 0] + c * m[None, :, 1]
+        origin = np.ascontiguousarray(np.stack([ox.ravel(), oy.ravel()], axis=1))
+        heading = np.ascontiguousarray((pose[:, 2:3] + m[None, :, 2]).ravel())
+        d = np.empty(origin.shape[0])
+        ray_cast_kernel(self.field.segments, origin, heading, np.inf, d)
+        d = d.reshape(pose.shape[0], m.shape[0])
+        return np.where(d <= self.range_max[None, :], d, np.inf)
