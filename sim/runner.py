@@ -164,6 +164,7 @@ class Simulation:
         w = self.world
         readings = self.sensors.read(t, w.pose, w.wheel_angle)
         readings.battery_voltage = w.battery_voltage.copy()
+        self.readings = readings
         if self._needs_truth:
             readings.truth = w.pose.copy()
         measured = self._measured_wheel_speed(readings)
