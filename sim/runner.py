@@ -185,7 +185,7 @@ class Simulation:
         self.score.update(
             self.k, t, self.active, w.pose, self.estimate, self.covariance, duty, w.motor_current, w.battery_voltage
         )
-        ref, _, _ = self.plan.sample(np.full(self.n, t))
+        ref = self.plan.pose[min(self.k, len(self.plan.t) - 1)][None, :].repeat(self.n, axis=0) if self.recorder.columns.size else None
         self.recorder.record(
             self.k, t, pose=w.pose, velocity=w.velocity, estimate=self.estimate, covariance=self.covariance,
             reference=ref, command=cmd.velocity, target=cmd.target, duty=duty, wheel_speed=w.wheel_speed,

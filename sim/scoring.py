@@ -89,8 +89,9 @@ class ScoreKeeper:
         s, d = project(self.plan, pose[:, :2], self.s)
         self.s = np.where(active, s, self.s)
         self.cross_track = d
-        ref, _, _ = self.plan.sample(np.full(self.n, t))
-        plan_s = self.plan.s[self.plan.index(t)]
+        tick = min(int(round(t / self.plan.dt)), len(self.plan.t) - 1)
+        ref_heading = self.plan.pose[tick, 2]
+        plan_s = self.plan.s[tick]
         a = active.astype(np.float64)
         self.ticks += active
         self.xt_sq += a * d * d
@@ -98,7 +99,7 @@ class ScoreKeeper:
         if k < self.xt_abs.shape[0]:
             self.xt_abs[k] = np.where(active, np.abs(d), np.nan)
         self.lag_sq += a * (plan_s - s) ** 2
-        self.head_sq += a * wrap(pose[:, 2] - ref[:, 2]) ** 2
+        self.head_sq += a * wrap(pose[:, 2] - ref_heading) ** 2
         err = estimate[:, :2] - pose[:, :2]
         e2 = np.einsum("ij,ij->i", err, err)
         self.est_sq += a * e2
