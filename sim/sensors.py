@@ -7,14 +7,15 @@ so encoders see wheel spin as on a real robot).
 
 Between ticks the body is taken to move along the constant-twist arc joining the two
 poses (``log`` of the relative pose); pods and the gyro measure that arc exactly, before
-their own errors. Every random number of robot k comes from ``rngs[k]``
-(:mod:`sim.sensors_noise`). Sample schedules are the same for every robot: a sensor with
-rate f has sample instants ``j / f`` after the start and reports at the first tick at or
-after each.
+their own errors. Every random number of robot k comes from ``rngs[k]``, drawn in
+blocks per sensor (:mod:`sim.sensors_noise`). Sample schedules are the same for every
+robot: a sensor with rate f has sample instants ``j / f`` after the start and reports at
+the first tick at or after each. Latency rounds to a whole control tick.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 
 import numpy as np
@@ -22,12 +23,22 @@ from numba import njit
 
 from planners import se2
 from planners.odometry import pod_matrix
+from planners.se2 import compose_one
 from planners.readings import Readings
 from sim.config_sensors import SensorSuite
 from sim.field import Field, ray_cast_kernel
-from sim.sensors_noise import NoiseBuffer
+from sim.sensors_noise import NoiseBlock, check_generators
 
 _TWO_PI = 2.0 * np.pi
+
+
+@njit(cache=True)
+def _relative_kernel(prev, pose, out):
+    # between(prev, pose): the difference rotated by -heading (compose of a pure rotation)
+    for i in range(pose.shape[0]):
+        out[i, 0], out[i, 1], out[i, 2] = compose_one(
+            0.0, 0.0, -prev[i, 2], pose[i, 0] - prev[i, 0], pose[i, 1] - prev[i, 1], pose[i, 2]
+        )
 
 
 @njit(cache=True)
@@ -73,6 +84,30 @@ def _imu_kernel(dtheta, due, interval, density, walk, bias, scale, z, z0, acc, o
         acc[i] = 0.0
 
 
+@njit(cache=True)
+def _mount_kernel(pose, mounts, origin, heading):
+    # ray start and direction of every (robot, sensor): pose * mount, field frame
+    r = mounts.shape[0]
+    for i in range(pose.shape[0]):
+        for j in range(r):
+            x, y, h = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], mounts[j, 0], mounts[j, 1], mounts[j, 2])
+            origin[i * r + j, 0] = x
+            origin[i * r + j, 1] = y
+            heading[i * r + j] = h
+
+
+@njit(cache=True)
+def _range_kernel(d, sigma, z, due, out):
+    for i in range(d.shape[0]):
+        for j in range(d.shape[1]):
+            if not due[j]:
+                continue
+            v = d[i, j]
+            if z.shape[1] and np.isfinite(v):
+                v = max(v + sigma[j] * z[i, j], 0.0)
+            out[i, j] = v
+
+
 class Sensors:
     """Every sensor of N robots of one scenario.
 
@@ -102,25 +137,22 @@ class Sensors:
         self.wheel_count = int(wheel_count)
         self.dt = float(dt)
         c = config
-        # slots of each tick's draws; a zero-noise sensor draws nothing
-        self._zslot: dict[str, int] = {}
-        self._uslot: dict[str, int] = {}
-        nz = nu = 0
+        # draws per sample of each sensor (normals, uniforms); a noise-free one draws nothing
+        self._draws: dict[str, tuple[int, int]] = {}
         if c.encoders is not None and c.encoders.noise > 0.0:
-            self._zslot["enc"], nz = nz, nz + self.wheel_count
-        if any(p.noise > 0.0 for p in c.pods):
-            self._zslot["pod"], nz = nz, nz + len(c.pods)
-        if any(p.skip > 0.0 for p in c.pods):
-            self._uslot["pod"], nu = nu, nu + len(c.pods)
-        if c.imu is not None:
-            self._zslot["imu"], nz = nz, nz + 2
+            self._draws["enc"] = (self.wheel_count, 0)
+        if c.pods:
+            self._draws["pod"] = (
+                len(c.pods) * any(p.noise > 0.0 for p in c.pods),
+                len(c.pods) * any(p.skip > 0.0 for p in c.pods),
+            )
+        if c.imu is not None and (c.imu.rate_noise > 0.0 or c.imu.bias_walk > 0.0):
+            self._draws["imu"] = (2, 0)
         if c.fixes is not None:
-            self._zslot["fix"], nz = nz, nz + 3
-            if c.fixes.dropout > 0.0:
-                self._uslot["fix"], nu = nu, nu + 1
+            f = c.fixes
+            self._draws["fix"] = (3 * (f.sigma_xy > 0.0 or f.sigma_heading > 0.0), int(f.dropout > 0.0))
         if any(r.sigma > 0.0 for r in c.range):
-            self._zslot["range"], nz = nz, nz + len(c.range)
-        self._nz, self._nu = nz, nu
+            self._draws["range"] = (len(c.range), 0)
         if c.pods:
             self._pod_row = np.ascontiguousarray(
                 pod_matrix(np.array([p.at for p in c.pods]), np.array([p.direction for p in c.pods]))
@@ -130,11 +162,12 @@ class Sensors:
             self._pod_skip = np.array([p.skip for p in c.pods])
             self._pod_quant = np.array([p.quantise for p in c.pods])
         if c.range:
-            self.range_mounts = np.array([[*r.at, r.direction] for r in c.range], dtype=np.float64)
-            self.range_max = np.array([r.max_range for r in c.range], dtype=np.float64)
+            self.range_mounts = _frozen([[*r.at, r.direction] for r in c.range])
+            self.range_max = _frozen([r.max_range for r in c.range])
+            self._range_sigma = _frozen([r.sigma for r in c.range])
         if c.fixes is not None:
             f = c.fixes
-            self.fix_sigma = np.array([f.sigma_xy, f.sigma_xy, f.sigma_heading])
+            self.fix_sigma = _frozen([f.sigma_xy, f.sigma_xy, f.sigma_heading])
             self._lag = int(round(f.latency / self.dt))
         else:
             self._lag = 0
@@ -168,7 +201,10 @@ class Sensors:
         self.n = n
         self.t0 = float(t0)
         self._k = -1
-        self._noise = NoiseBuffer(rngs, normals=self._nz, uniforms=self._nu)
+        rngs = check_generators(rngs)
+        self._blocks = {
+            name: NoiseBlock(rngs, normals=nz, uniforms=nu) for name, (nz, nu) in self._draws.items()
+        }
         self._prev = pose0.copy()
         self._hist = np.repeat(pose0[None], self._lag + 1, axis=0)
         over = dict(per_robot or {})
@@ -193,13 +229,19 @@ class Sensors:
             self._imu_last = 0
 
     # ------------------------------------------------------------------ schedule
+    def _take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
+        # this sensor's draws for one sample; empty (N, 0) when it draws nothing
+        block = self._blocks.get(name)
+        if block is None:
+            empty = np.empty((self.n, 0))
+            return empty, empty
+        return block.take()
+
     def _due(self, k: int, rate: float | None) -> bool:
         if rate is None or k == 0:
             return True
         # sample instants j / rate; report at the first tick at or after each
-        a = np.floor(k * self.dt * rate + 1e-9)
-        b = np.floor((k - 1) * self.dt * rate + 1e-9)
-        return bool(a > b)
+        return math.floor(k * self.dt * rate + 1e-9) > math.floor((k - 1) * self.dt * rate + 1e-9)
 
     # ------------------------------------------------------------------ read
     def read(self, t: float, pose: np.ndarray, wheel_angle: np.ndarray) -> Readings:
@@ -225,12 +267,13 @@ class Sensors:
         if pose.shape != (n, 3):
             raise ValueError(f"sensors: pose must have shape ({n}, 3), got {pose.shape}")
         self._k = k
-        z, u = self._noise.tick(k)
         self._hist[k % (self._lag + 1)] = pose
         out = Readings(t=float(t))
         twist = None
         if c.pods or c.imu is not None:
-            twist = np.ascontiguousarray(se2.log(se2.between(self._prev, pose)))
+            rel = np.empty((n, 3))
+            _relative_kernel(self._prev, pose, rel)
+            twist = se2.log(rel)
         if c.encoders is not None:
             wa = np.ascontiguousarray(wheel_angle, dtype=np.float64)
             if wa.shape != (n, self.wheel_count):
@@ -239,49 +282,51 @@ class Sensors:
                 )
             e = c.encoders
             out.encoder_counts = np.empty((n, self.wheel_count))
-            _encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z,
-                            self._zslot.get("enc", 0), out.encoder_counts)
+            z, _ = self._take("enc")
+            _encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z, 0,
+                            out.encoder_counts)
         if c.pods:
             out.pod_counts = np.empty((n, len(c.pods)))
+            z, u = self._take("pod")
             _pod_kernel(twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
-                        self._pod_skip, self._pod_quant, z, self._zslot.get("pod", 0), u,
-                        self._uslot.get("pod", 0), self._pod_acc, out.pod_counts)
+                        self._pod_skip, self._pod_quant, z, 0, u, 0, self._pod_acc, out.pod_counts)
         if c.imu is not None:
-            self._read_imu(k, twist, z, out)
+            self._read_imu(k, twist, out)
         if c.fixes is not None:
-            self._read_fix(k, z, u, out)
+            self._read_fix(k, out)
         if c.range:
-            self._read_range(k, pose, z, out)
+            self._read_range(k, pose, out)
         self._prev = pose.copy()
         return out
 
-    def _read_imu(self, k: int, twist: np.ndarray, z: np.ndarray, out: Readings) -> None:
+    def _read_imu(self, k: int, twist: np.ndarray, out: Readings) -> None:
         imu = self.config.imu
         due = k > 0 and self._due(k, imu.rate)
         interval = (k - self._imu_last) * self.dt if due else 0.0
+        z = self._take("imu")[0] if due else np.empty((self.n, 0))
         out.gyro_rate = np.empty(self.n)
         _imu_kernel(np.ascontiguousarray(twist[:, 2]), due, max(interval, 1e-300), imu.rate_noise,
-                    imu.bias_walk, self._bias, self._imu_scale, z, self._zslot["imu"],
-                    self._imu_acc, out.gyro_rate)
+                    imu.bias_walk, self._bias, self._imu_scale, z, 0, self._imu_acc, out.gyro_rate)
         if due:
             self._imu_last = k
         out.imu_valid = np.full(self.n, due)
         out.gyro_interval = np.full(self.n, interval)
 
-    def _read_fix(self, k: int, z: np.ndarray, u: np.ndarray, out: Readings) -> None:
+    def _read_fix(self, k: int, out: Readings) -> None:
         f, n = self.config.fixes, self.n
         kc = k - self._lag
         out.fix = np.full((n, 3), np.nan)
         out.fix_time = np.full(n, np.nan)
-        out.fix_sigma = self.fix_sigma.copy()
+        out.fix_sigma = self.fix_sigma
         valid = np.zeros(n, dtype=np.bool_)
         lm = self.field.landmark_xy
         if kc >= 0 and lm.shape[0] and self._due(k, f.rate):
+            z, u = self._take("fix")
             seen = self._pose_then(kc)
             valid = self.landmark_visible(seen).any(axis=1)
-            if "fix" in self._uslot:
-                valid &= u[:, self._uslot["fix"]] >= f.dropout
-            noisy = seen + self.fix_sigma * z[:, self._zslot["fix"]:self._zslot["fix"] + 3]
+            if u.shape[1]:
+                valid &= u[:, 0] >= f.dropout
+            noisy = seen + self.fix_sigma * z if z.shape[1] else seen.copy()
             noisy[:, 2] = se2.wrap(noisy[:, 2])
             out.fix[valid] = noisy[valid]
             out.fix_time[valid] = self.t0 + kc * self.dt
@@ -321,31 +366,32 @@ class Sensors:
         ok &= hit.reshape(dist.shape) >= dist * (1.0 - 1e-9) - 1e-9
         return ok
 
-    def _read_range(self, k: int, pose: np.ndarray, z: np.ndarray, out: Readings) -> None:
+    def _read_range(self, k: int, pose: np.ndarray, out: Readings) -> None:
         n, r = self.n, len(self.config.range)
         due = np.array([self._due(k, s.rate) for s in self.config.range])
-        out.range_mounts = self.range_mounts.copy()
-        out.range_max = self.range_max.copy()
+        out.range_mounts = self.range_mounts
+        out.range_max = self.range_max
         out.ranges = np.full((n, r), np.nan)
         out.range_valid = np.repeat(due[None], n, axis=0)
         if not due.any():
             return
         d = self.true_ranges(pose)
-        if "range" in self._zslot:
-            sigma = np.array([s.sigma for s in self.config.range])
-            zs = z[:, self._zslot["range"]:self._zslot["range"] + r]
-            d = np.where(np.isfinite(d), np.maximum(d + sigma * zs, 0.0), d)
-        out.ranges[:, due] = d[:, due]
+        z, _ = self._take("range")
+        _range_kernel(d, self._range_sigma, z, due, out.ranges)
 
     def true_ranges(self, pose: np.ndarray) -> np.ndarray:
         """Noise-free range of every sensor from each pose, shape (N, R) [m] (inf beyond max)."""
-        m = self.range_mounts
-        c, s = np.cos(pose[:, 2:3]), np.sin(pose[:, 2:3])
-        ox = pose[:, 0:1] + c * m[None, :, 0] - s * m[None, :, 1]
-        oy = pose[:, 1:2] + s * m[None, :, 0] + c * m[None, :, 1]
-        origin = np.ascontiguousarray(np.stack([ox.ravel(), oy.ravel()], axis=1))
-        heading = np.ascontiguousarray((pose[:, 2:3] + m[None, :, 2]).ravel())
-        d = np.empty(origin.shape[0])
+        n, r = pose.shape[0], self.range_mounts.shape[0]
+        origin = np.empty((n * r, 2))
+        heading = np.empty(n * r)
+        _mount_kernel(np.ascontiguousarray(pose, dtype=np.float64), self.range_mounts, origin, heading)
+        d = np.empty(n * r)
         ray_cast_kernel(self.field.segments, origin, heading, np.inf, d)
-        d = d.reshape(pose.shape[0], m.shape[0])
+        d = d.reshape(n, r)
         return np.where(d <= self.range_max[None, :], d, np.inf)
+
+def _frozen(values) -> np.ndarray:
+    # static sensor geometry shared by every Readings: read-only so no consumer can change it
+    a = np.array(values, dtype=np.float64)
+    a.setflags(write=False)
+    return a

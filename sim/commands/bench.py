@@ -30,6 +30,17 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(handler=run)
 
 
+def _flat(d: dict, prefix: str = "") -> dict:
+    out = {}
+    for k, v in d.items():
+        key = f"{prefix}{k}".replace("=", "").replace(" ", "_")
+        if isinstance(v, dict):
+            out.update(_flat(v, f"{key}_"))
+        else:
+            out[key] = v
+    return out
+
+
 def run(args: argparse.Namespace) -> int:
     figures: dict = {
         "machine": f"{platform.machine()} {os.cpu_count()} cores, load {os.getloadavg()[0]:.2f}",
@@ -42,7 +53,7 @@ def run(args: argparse.Namespace) -> int:
             figures[f"{name}_skipped"] = str(exc)
             continue
         kw = {"quick": True} if args.quick and "quick" in fn.__code__.co_varnames else {}
-        result = fn(**kw)
+        result = _flat(fn(**kw))
         if name == "physics":
             result = {f"physics_substeps_per_s_{k}": v for k, v in result.items()}
         figures.update(result)
