@@ -79,7 +79,10 @@ def step_kernel(
         coast = p[17] > 0.5
         j_eff = p[14]
         for _ in range(steps):
-            vb = p[12] - p[13] * np.sum(np.abs(current[i]))
+            total = 0.0
+            for j in range(w):
+                total += abs(current[i, j])
+            vb = p[12] - p[13] * total
             if vb < 0.0:
                 vb = 0.0
             vbatt[i] = vb
