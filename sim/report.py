@@ -88,7 +88,7 @@ def box_plot(groups: dict[str, dict[str, list[float]]], keys: list[str], path: s
     names = list(groups)
     for ax, key in zip(axes[0], keys):
         data = [np.asarray([v for v in groups[g].get(key, []) if v == v], dtype=float) for g in names]
-        ax.boxplot(data, tick_labels=[n[:28] for n in names], vert=True)
+        ax.boxplot(data, tick_labels=[n[:28] for n in names], orientation="vertical")
         ax.set_title(key)
         ax.tick_params(axis="x", rotation=30, labelsize=7)
         ax.grid(alpha=0.3)
