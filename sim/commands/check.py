@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-import math
 import sys
 
 from planners.errors import SkidpadError
@@ -30,13 +29,17 @@ def summarise(path: str) -> str:
             f"{path}: field {fld.name!r}, {x1 - x0:.2f} m x {y1 - y0:.2f} m, "
             f"{len(fld.obstacles)} obstacles, {len(fld.landmarks)} landmarks, {len(fld.patches)} patches"
         )
+    from sim.planning import make_plan
+
     sc = load_scenario(path)
-    pts = [sc.route.start[:2]] + [w.at for w in sc.route.waypoints]
-    length = sum(math.dist(a, b) for a, b in zip(pts, pts[1:]))
+    if sc.route.waypoints:
+        plan = make_plan(sc)  # a route that cannot be driven is an error here too
+        route = f"route {len(sc.route.waypoints)} waypoints, {plan.length:.2f} m path, {plan.duration:.1f} s plan"
+    else:
+        route = "no route (open-loop script)"
     x0, y0, x1, y1 = sc.field.bounds
     return (
-        f"{path}: {sc.title!r}: {sc.robot.chassis} chassis, {sc.robot.mass:g} kg; "
-        f"route {len(sc.route.waypoints)} waypoints, {length:.2f} m between them; "
+        f"{path}: {sc.title!r}: {sc.robot.chassis} chassis, {sc.robot.mass:g} kg; {route}; "
         f"field {sc.field.name!r} {x1 - x0:.2f} m x {y1 - y0:.2f} m; "
         f"tracker {sc.tracker.kind}, estimator {sc.estimator.kind}"
     )

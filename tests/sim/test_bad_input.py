@@ -187,3 +187,11 @@ def test_every_case_has_distinct_key():
 def test_bundled_default_is_valid(capsys):
     assert read_toml(default_scenario_path())["title"]
     assert main(["check", str(default_scenario_path())]) == 0
+
+
+def test_route_that_cannot_be_driven_is_reported_by_check(tmp_path, capsys):
+    # the waypoints are on the floor, but the smoothed path passes closer to the south wall
+    # than half the robot's width
+    path = _write(tmp_path, _set(SCENARIO, "route.waypoint.1.at", [3.5, 0.12]))
+    line = _check(capsys, path)
+    assert "smoothed path must keep" in line and "from walls and obstacles" in line
