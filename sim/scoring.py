@@ -109,7 +109,8 @@ class ScoreKeeper:
             full[:, 2] = wrap(full[:, 2])
             ok = active & np.all(np.isfinite(covariance.reshape(self.n, -1)), axis=1)
             if ok.any():
-                sol = np.linalg.solve(covariance[ok], full[ok][:, :, None])[:, :, 0]
+                # pseudo-inverse: a singular covariance (a collapsed particle cloud) must not crash
+                sol = np.einsum("nij,nj->ni", np.linalg.pinv(covariance[ok]), full[ok])
                 self.nees_sum[ok] += np.einsum("ij,ij->i", full[ok], sol)
                 self.nees_count[ok] += 1
         if self.last_xy is not None:

@@ -25,8 +25,9 @@ class Estimator(Protocol):
 
     PARAMS: ClassVar[dict[str, Param]]
 
-    def reset(self, pose0: np.ndarray, n: int, *, seed: int | None = None) -> None:
-        """Start from ``pose0`` (N, 3) [m, m, rad], field frame, for ``n`` robots."""
+    def reset(self, pose0: np.ndarray, n: int, *, rngs: list[np.random.Generator] | None = None) -> None:
+        """Start from ``pose0`` (N, 3) [m, m, rad], field frame, for ``n`` robots; ``rngs`` holds
+        one generator per robot (robot k's own stream) for methods that draw."""
 
     def update(self, t: float, readings: Readings) -> np.ndarray:
         """Fold in one tick of readings; return the pose estimate (N, 3), field frame."""

@@ -1,0 +1,120 @@
+"""Shared pieces of the estimators: dead reckoning from the context, fix readings, covariance.
+
+Estimators receive the runner's context as duck-typed objects (``geometry`` with
+``kind`` and ``forward_matrix``; ``sensors`` with ``encoders``, ``pods``, ``imu``,
+``fixes``); nothing here imports :mod:`sim`.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from planners.errors import ScenarioError
+from planners.odometry import SOURCES, Odometry
+from planners.params import Param
+
+SOURCE_PARAM = Param(
+    dimension="choice", default="encoders", choices=SOURCES,
+    doc="dead-reckoning source: drive encoders or pods, optionally with IMU heading",
+)
+
+
+def make_odometry(context: dict[str, Any], source: str, *, where: str) -> Odometry:
+    """Build the :class:`Odometry` of ``source`` from the runner's context.
+
+    Raises
+    ------
+    ScenarioError
+        When the sensors ``source`` needs are absent from ``context["sensors"]``.
+    """
+    sensors = context.get("sensors")
+    geometry = context.get("geometry")
+    base = source.split("+")[0]
+    if base == "encoders":
+        enc = getattr(sensors, "encoders", None)
+        if enc is None or geometry is None:
+            raise ScenarioError(
+                f"{where}: sensors.encoders must be present for source {source!r}, got None"
+            )
+        odo_args: dict[str, Any] = dict(
+            forward=geometry.forward_matrix, counts_per_rev=enc.counts_per_rev
+        )
+    else:
+        pods = tuple(getattr(sensors, "pods", ()) or ())
+        if not pods:
+            raise ScenarioError(
+                f"{where}: sensors.pods must be present for source {source!r}, got none"
+            )
+        odo_args = dict(
+            pod_at=np.array([p.at for p in pods], dtype=np.float64),
+            pod_direction=np.array([p.direction for p in pods], dtype=np.float64),
+            pod_radius=np.array([p.radius for p in pods], dtype=np.float64),
+            pod_counts_per_rev=np.array([p.counts_per_rev for p in pods], dtype=np.float64),
+            no_sideslip=geometry is not None and getattr(geometry, "kind", "mecanum") != "mecanum",
+        )
+    if source.endswith("+imu") and getattr(sensors, "imu", None) is None:
+        raise ScenarioError(f"{where}: sensors.imu must be present for source {source!r}, got None")
+    return Odometry(source=source, **odo_args)
+
+
+def need_fixes(context: dict[str, Any], *, where: str) -> None:
+    """Raise :class:`ScenarioError` when the robot has no fix sensor."""
+    if getattr(context.get("sensors"), "fixes", None) is None:
+        raise ScenarioError(f"{where}: sensors.fixes must be present, got None")
+
+
+def need_imu(context: dict[str, Any], *, where: str) -> None:
+    """Raise :class:`ScenarioError` when the robot has no IMU."""
+    if getattr(context.get("sensors"), "imu", None) is None:
+        raise ScenarioError(f"{where}: sensors.imu must be present, got None")
+
+
+def fix_sigma(context: dict[str, Any], readings: Any) -> np.ndarray:
+    """Fix standard deviations (3,) [m, m, rad]: from the readings, else the sensor config."""
+    if readings is not None and readings.fix_sigma is not None:
+        return np.asarray(readings.fix_sigma, dtype=np.float64)
+    fx = context["sensors"].fixes
+    return np.array([fx.sigma_xy, fx.sigma_xy, fx.sigma_heading], dtype=np.float64)
+
+
+def valid_fixes(readings: Any, n: int) -> np.ndarray:
+    """Bool mask (N,) of robots whose fix arrived this tick (all false without a fix sensor)."""
+    if readings.fix is None or readings.fix_valid is None:
+        return np.zeros(n, dtype=bool)
+    return np.asarray(readings.fix_valid, dtype=bool) & np.all(np.isfinite(readings.fix), axis=1)
+
+
+def as_start(pose0: np.ndarray, n: int) -> np.ndarray:
+    """``pose0`` as a fresh float array (n, 3)."""
+    return np.array(pose0, dtype=np.float64).reshape(n, 3)
+
+
+CONTEXT_KEYS = ("geometry", "sensors", "field", "dt")
+
+
+def split_params(
+    where: str, declared: dict[str, Param], given: dict[str, Any]
+) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Split constructor keywords into the runner's context and checked parameters.
+
+    Parameters are checked against ``declared`` and filled with its defaults (the one place
+    defaults live).
+
+    Returns
+    -------
+    context : dict — geometry, sensors, field, dt (those given)
+    params : dict — every declared key, given value or default
+
+    Raises
+    ------
+    ScenarioError
+        For an unknown key, a value out of bounds or a string not among the choices.
+    """
+    # resolve_params lives with the trackers; the estimators use the same checks
+    from planners.trackers.base import resolve_params
+
+    context = {k: given[k] for k in CONTEXT_KEYS if k in given}
+    rest = {k: v for k, v in given.items() if k not in CONTEXT_KEYS}
+    return context, resolve_params(where, declared, rest)
