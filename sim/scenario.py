@@ -48,47 +48,12 @@ def bundled_dir(kind: str) -> Path:
     """Folder of the bundled ``"scenarios"`` or ``"fields"``, installed or in a checkout.
 
     An installed skidpad carries them as the data packages ``sim.bundled.*`` (see
-    pyproject.toml); a source checkout has them at the repository root.
+    pyproject.toml), i.e. in ``sim/bundled/<kind>``; a source checkout (or an editable
+    install) has them at the repository root.
     """
-    from importlib import resources
-
-    try:
-        return Path(str(resources.files(f"sim.bundled.{kind}")))
-    except ModuleNotFoundError:
-        return Path(__file__).resolve().parent.parent / kind
-
-
-@dataclass(frozen=True, eq=False)
-class Scenario:
-    """A validated scenario, every value in SI.
-
-    Attributes
-    ----------
-    title : str
-    source : str — the scenario file
-    field : Field
-    robot : Robot
-    sensors : SensorSuite
-    route : Route
-    tracker, estimator : Plugin — registered kind and its parameters
-    control : dict — wheel-control constants (``None`` = derive from the motor model)
-    run : Run
-    document : dict — the raw TOML document after overrides (written beside results)
-    notes : tuple of str — things the loader decided and the user should know
-    """
-
-    title: str
-    source: str
-    field: Field
-    robot: Robot
-    sensors: SensorSuite
-    route: Route
-    tracker: Plugin
-    estimator: Plugin
-    control: dict[str, Any]
-    run: Run
-    document: dict = field(repr=False, default_factory=dict)
-    notes: tuple[str, ...] = ()
+    here = Path(__file__).resolve().parent
+    installed = here / "bundled" / kind
+    return installed if installed.is_dir() else here.parent / kind
 
 
 def bundled_scenarios() -> list[Path]:
