@@ -56,6 +56,39 @@ def bundled_dir(kind: str) -> Path:
     return installed if installed.is_dir() else here.parent / kind
 
 
+@dataclass(frozen=True, eq=False)
+class Scenario:
+    """A validated scenario, every value in SI.
+
+    Attributes
+    ----------
+    title : str
+    source : str — the scenario file
+    field : Field
+    robot : Robot
+    sensors : SensorSuite
+    route : Route
+    tracker, estimator : Plugin — registered kind and its parameters
+    control : dict — wheel-control constants (``None`` = derive from the motor model)
+    run : Run
+    document : dict — the raw TOML document after overrides (written beside results)
+    notes : tuple of str — things the loader decided and the user should know
+    """
+
+    title: str
+    source: str
+    field: Field
+    robot: Robot
+    sensors: SensorSuite
+    route: Route
+    tracker: Plugin
+    estimator: Plugin
+    control: dict[str, Any]
+    run: Run
+    document: dict = field(repr=False, default_factory=dict)
+    notes: tuple[str, ...] = ()
+
+
 def bundled_scenarios() -> list[Path]:
     """Scenario files shipped with skidpad."""
     return sorted(bundled_dir("scenarios").glob("*.toml"))
