@@ -21,7 +21,6 @@ from planners.plan import Plan
 from sim.planning import geometry, make_plan
 from planners.se2 import wrap
 from planners.trackers import TRACKERS
-from sim.config_robot import Robot
 from sim.scenario import Scenario, robot_value
 from sim.scoring import ScoreKeeper
 from sim.sensors import Sensors
