@@ -138,9 +138,15 @@ def feedforward_from_motor(
     a = {
         k: np.broadcast_to(np.asarray(v, dtype=np.float64), shape).copy()
         for k, v in dict(
-            free_speed=free_speed, stall_torque=stall_torque, stall_current=stall_current,
-            free_current=free_current, gear_ratio=gear_ratio, gear_efficiency=gear_efficiency,
-            mass_share=mass_share, wheel_radius=wheel_radius, wheel_inertia=wheel_inertia,
+            free_speed=free_speed,
+            stall_torque=stall_torque,
+            stall_current=stall_current,
+            free_current=free_current,
+            gear_ratio=gear_ratio,
+            gear_efficiency=gear_efficiency,
+            mass_share=mass_share,
+            wheel_radius=wheel_radius,
+            wheel_inertia=wheel_inertia,
             rotor_inertia=rotor_inertia,
         ).items()
     }
@@ -212,7 +218,9 @@ def discretise(a: np.ndarray, b: np.ndarray, dt: float) -> tuple[np.ndarray, np.
     return e[:n, :n], e[:n, n:]
 
 
-def bryson(max_state: np.ndarray | float, max_input: np.ndarray | float) -> tuple[np.ndarray, np.ndarray]:
+def bryson(
+    max_state: np.ndarray | float, max_input: np.ndarray | float
+) -> tuple[np.ndarray, np.ndarray]:
     """Bryson's rule: diagonal weights ``1 / max^2`` (Bryson & Ho, *Applied Optimal Control*, 1975).
 
     Parameters
@@ -330,8 +338,24 @@ def simc_integral_gain(
 
 @njit(cache=True)
 def _wheel_kernel(
-    target, accel, measured, vbatt, ks, kv, ka, kp, ki, kd, ilim, dt, d_alpha,
-    integ, dfilt, prev, primed, out,
+    target,
+    accel,
+    measured,
+    vbatt,
+    ks,
+    kv,
+    ka,
+    kp,
+    ki,
+    kd,
+    ilim,
+    dt,
+    d_alpha,
+    integ,
+    dfilt,
+    prev,
+    primed,
+    out,
 ):
     n, w = target.shape
     u = np.empty(w)
@@ -402,15 +426,37 @@ class WheelController:
 
     PARAMS: ClassVar[dict[str, Param]] = {
         "kS": _p("voltage", None, "static friction voltage (default: from the motor)", ge=0.0),
-        "kV": _p("dimensionless", None, "V per rad/s of wheel speed (default: from the motor)", gt=0.0),
-        "kA": _p("dimensionless", None, "V per rad/s^2 of wheel accel (default: from the motor)", gt=0.0),
-        "kP": _p("dimensionless", None, "V per rad/s of speed error (default: discrete LQR)", ge=0.0),
-        "kI": _p("dimensionless", None, "V per rad of integrated speed error (default: SIMC)", ge=0.0),
-        "kD": _p("dimensionless", 0.0, "V per rad/s^2 of accel error (derivative on measurement)", ge=0.0),
+        "kV": _p(
+            "dimensionless", None, "V per rad/s of wheel speed (default: from the motor)", gt=0.0
+        ),
+        "kA": _p(
+            "dimensionless", None, "V per rad/s^2 of wheel accel (default: from the motor)", gt=0.0
+        ),
+        "kP": _p(
+            "dimensionless", None, "V per rad/s of speed error (default: discrete LQR)", ge=0.0
+        ),
+        "kI": _p(
+            "dimensionless", None, "V per rad of integrated speed error (default: SIMC)", ge=0.0
+        ),
+        "kD": _p(
+            "dimensionless", 0.0, "V per rad/s^2 of accel error (derivative on measurement)", ge=0.0
+        ),
         "d_filter": _p("time", 0.01, "time constant of the measured-accel filter", ge=0.0),
-        "i_limit": _p("voltage", None, "bound on the integral term (default: a quarter of the battery)", ge=0.0),
-        "max_error": _p("angular_speed", None, "LQR/Bryson: largest speed error (default: 20 % of free speed)", gt=0.0),
-        "max_effort": _p("voltage", None, "LQR/Bryson: largest correction (default: the battery voltage)", gt=0.0),
+        "i_limit": _p(
+            "voltage",
+            None,
+            "bound on the integral term (default: a quarter of the battery)",
+            ge=0.0,
+        ),
+        "max_error": _p(
+            "angular_speed",
+            None,
+            "LQR/Bryson: largest speed error (default: 20 % of free speed)",
+            gt=0.0,
+        ),
+        "max_effort": _p(
+            "voltage", None, "LQR/Bryson: largest correction (default: the battery voltage)", gt=0.0
+        ),
     }
 
     def __init__(
@@ -528,9 +574,24 @@ class WheelController:
         g = self._g
         out = np.empty(shape)
         _wheel_kernel(
-            args[0], args[1], args[2], vb, g["kS"], g["kV"], g["kA"], g["kP"], g["kI"],
-            g["kD"], g["i_limit"], self.dt, self._d_alpha, self._integ, self._dfilt,
-            self._prev, self._primed, out,
+            args[0],
+            args[1],
+            args[2],
+            vb,
+            g["kS"],
+            g["kV"],
+            g["kA"],
+            g["kP"],
+            g["kI"],
+            g["kD"],
+            g["i_limit"],
+            self.dt,
+            self._d_alpha,
+            self._integ,
+            self._dfilt,
+            self._prev,
+            self._primed,
+            out,
         )
         return out
 

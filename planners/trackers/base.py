@@ -182,7 +182,7 @@ class TrackerBase:
 
 
 def reference(plan: Plan, t: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Reference state at time ``t`` for every robot: pose, body velocity, body accel.
+    """Return the reference state at time ``t``: pose, body velocity, body accel.
 
     Past the end the final pose is held at rest (as :meth:`Plan.sample`).
 
@@ -194,36 +194,77 @@ def reference(plan: Plan, t: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]
     return pose[0], vel[0], acc[0]
 
 
-def travel_speed(velocity: np.ndarray) -> float:
-    """Signed speed along the path of a reference body velocity (negative when reversing).
+#: the along-track speed gain shared by the path trackers (see :class:`AlongTrack`)
+ALONG_TRACK_PARAM = Param(
+    "dimensionless", 1.0, "speed added per metre behind the timed plan [1/s]", ge=0.0
+)
+
+
+class AlongTrack:
+    """Speed along the path for the path trackers: the plan's speed plus along-track feedback.
+
+    ``|v| = clip(|v_plan(t)| + gain (s_plan(t) - s_robot), 0, top speed)`` in the plan's
+    direction of travel: a robot that fell behind the timed plan (slip, saturated wheels,
+    corner cutting) catches up, one ahead slows down (never reverses), and one still short of
+    the end when the plan stops creeps on to it. ``gain = 0`` is the plan's speed alone. Pure
+    pursuit and Stanley steer only; this timed speed is our addition.
+
+    Direction of travel: on a plan whose heading follows the path (``vy = 0`` throughout) it is
+    the sign of the plan's ``vx``, held through stops (reversed legs drive backwards). On a
+    plan with its own heading schedule (a mecanum plan that strafes) it is always forward: a
+    path tracker turns the chassis onto the path tangent and ignores that schedule.
 
     Parameters
     ----------
-    velocity : ndarray, shape (3,) — plan body velocity [vx, vy, omega]
-
-    Returns
-    -------
-    float — ``hypot(vx, vy)`` with the sign of ``vx`` [m/s]
+    plan : Plan
+    gain : float — along-track gain [1/s]
     """
-    speed = float(np.hypot(velocity[0], velocity[1]))
-    return -speed if velocity[0] < 0.0 else speed
 
+    def __init__(self, plan: Plan, gain: float) -> None:
+        self.plan = plan
+        self.gain = float(gain)
+        vx, vy = plan.velocity[:, 0], plan.velocity[:, 1]
+        speed = np.hypot(vx, vy)
+        self.top = float(max(np.max(speed, initial=0.0), 1e-9))
+        self.strafing = bool(np.max(np.abs(vy), initial=0.0) > 1e-6 * self.top)
+        if self.strafing:
+            self.direction = np.ones(len(speed))
+        else:
+            sign = np.where(vx < 0.0, -1.0, 1.0)
+            moving = speed > 1e-9
+            last = np.maximum.accumulate(np.where(moving, np.arange(len(speed)), -1))
+            self.direction = np.where(last >= 0, sign[np.maximum(last, 0)], 1.0)
 
-def travel_accel(velocity: np.ndarray, accel: np.ndarray) -> float:
-    """Rate of change of :func:`travel_speed` from a reference body velocity and accel.
+    def plan_speed(self, t: float) -> float:
+        """Return the plan's speed ``hypot(vx, vy)`` at ``t`` [m/s] (zero past the end)."""
+        _, vel, _ = reference(self.plan, t)
+        return float(np.hypot(vel[0], vel[1]))
 
-    ``d|v|/dt = (vx ax + vy ay) / |v|`` (with the sign of the travel speed); ``ax`` at rest.
+    def speed(self, t: float, s_robot: np.ndarray) -> tuple[np.ndarray, float]:
+        """Signed speed of each robot (N,) [m/s] and the direction of travel (+1 or -1).
 
-    Parameters
-    ----------
-    velocity, accel : ndarray, shape (3,) — plan body velocity and body accel
+        Parameters
+        ----------
+        t : float — [s]
+        s_robot : ndarray, shape (N,) — the robots' projected arc length [m]
+        """
+        k = int(self.plan.index(t))
+        base = self.plan_speed(t)
+        mag = np.clip(base + self.gain * (self.plan.s[k] - s_robot), 0.0, max(self.top, base))
+        direction = float(self.direction[k])
+        return direction * mag, direction
 
-    Returns
-    -------
-    float — [m/s^2]
-    """
-    speed = float(np.hypot(velocity[0], velocity[1]))
-    if speed < 1e-12:
-        return float(accel[0])
-    rate = float(velocity[0] * accel[0] + velocity[1] * accel[1]) / speed
-    return -rate if velocity[0] < 0.0 else rate
+    def accel(self, t: float) -> float:
+        """Body-x acceleration feedforward at ``t``: direction times ``d|v|/dt`` [m/s^2].
+
+        ``d|v|/dt = (vx ax + vy ay) / |v|``; at rest ``direction * ax`` on a plan that follows
+        the path tangent (exact for starts and stops), ``|a|`` on one that strafes.
+        """
+        _, vel, acc = reference(self.plan, t)
+        direction = float(self.direction[self.plan.index(t)])
+        speed = float(np.hypot(vel[0], vel[1]))
+        if speed > 1e-12:
+            return direction * float(vel[0] * acc[0] + vel[1] * acc[1]) / speed
+        if self.strafing:
+            return float(np.hypot(acc[0], acc[1]))
+        return float(acc[0])

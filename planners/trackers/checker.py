@@ -37,12 +37,15 @@ def _run(cls: type, chassis: str, params: dict, plan: Plan, t, poses, vels) -> l
 
 
 def _fields(cmd: BodyCommand) -> dict[str, np.ndarray]:
-    return {k: getattr(cmd, k) for k in ("velocity", "accel", "duty", "target")
-            if getattr(cmd, k) is not None}
+    return {
+        k: getattr(cmd, k)
+        for k in ("velocity", "accel", "duty", "target")
+        if getattr(cmd, k) is not None
+    }
 
 
 def _same(a: list[BodyCommand], b: list[BodyCommand], what: str, name: str) -> None:
-    for k, (ca, cb) in enumerate(zip(a, b)):
+    for k, (ca, cb) in enumerate(zip(a, b, strict=True)):
         fa, fb = _fields(ca), _fields(cb)
         if fa.keys() != fb.keys():
             raise ConformanceError(f"tracker {name}: {what}: fields differ at tick {k}")
@@ -101,9 +104,7 @@ def check_tracker(
         _same(batch, rerun, f"{ch}: a run after reset", name)
         for i in range(n_big):
             single = _run(cls, ch, params, plan, t, poses[:, i : i + 1], vels[:, i : i + 1])
-            rows = [
-                BodyCommand(**{k: v[i : i + 1] for k, v in _fields(c).items()}) for c in batch
-            ]
+            rows = [BodyCommand(**{k: v[i : i + 1] for k, v in _fields(c).items()}) for c in batch]
             _same(rows, single, f"{ch}: row {i} of a batch vs a run of one", name)
 
 
@@ -116,7 +117,9 @@ def _check_command(name: str, chassis: str, n: int, k: int, cmd: object) -> None
         if not isinstance(arr, np.ndarray) or arr.shape != (n, 3):
             raise ConformanceError(f"{where}: {key} must have shape ({n}, 3), got {np.shape(arr)}")
     if cmd.target is not None and np.shape(cmd.target) != (n, 2):
-        raise ConformanceError(f"{where}: target must have shape ({n}, 2), got {np.shape(cmd.target)}")
+        raise ConformanceError(
+            f"{where}: target must have shape ({n}, 2), got {np.shape(cmd.target)}"
+        )
     if cmd.duty is not None:
         duty = np.asarray(cmd.duty)
         if duty.ndim != 2 or duty.shape[0] != n or duty.shape[1] < 1:

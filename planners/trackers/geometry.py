@@ -42,12 +42,21 @@ def path_point(
 
 @njit(cache=True)
 def circle_crossing(
-    ps: np.ndarray, px: np.ndarray, py: np.ndarray, s: float, qx: float, qy: float, radius: float
+    ps: np.ndarray,
+    px: np.ndarray,
+    py: np.ndarray,
+    end_heading: float,
+    s: float,
+    qx: float,
+    qy: float,
+    radius: float,
 ) -> tuple[float, float]:
     """First path point at distance ``radius`` from ``q``, walking forward from arc length ``s``.
 
     The walk starts at the path point at ``s``; if that point is already ``radius`` or more
-    away it is returned, and if the path ends inside the circle its last point is returned.
+    away it is returned. If the path ends inside the circle, the path is extended past its
+    end along ``end_heading`` (the final direction of travel) and the crossing of that ray is
+    returned, so a tracker steering there arrives aligned with the end of the path.
     The walk skips ahead safely: distance to ``q`` changes no faster than arc length, so from
     a point at distance ``d < radius`` no crossing lies within ``radius - d`` of path.
     """
@@ -98,7 +107,14 @@ def circle_crossing(
         ax = bx
         ay = by
         d2 = (ax - qx) ** 2 + (ay - qy) ** 2
-    return px[m - 1], py[m - 1]
+    # the end lies inside the circle: |f + u e| = radius on the ray end + u e, u >= 0
+    ex = np.cos(end_heading)
+    ey = np.sin(end_heading)
+    fx = px[m - 1] - qx
+    fy = py[m - 1] - qy
+    fe = fx * ex + fy * ey
+    u = -fe + np.sqrt(max(fe * fe - (fx * fx + fy * fy) + r2, 0.0))
+    return px[m - 1] + u * ex, py[m - 1] + u * ey
 
 
 def path_curvature(plan: Plan) -> np.ndarray:

@@ -98,7 +98,14 @@ class Holonomic(TrackerBase):
         vel = np.empty((self.n, 3))
         acc = np.empty((self.n, 3))
         _holonomic_kernel(
-            pose, velocity, ref, ref_vel, ref_acc, self.params["bandwidth"],
-            self.params["heading_bandwidth"], vel, acc,
+            pose,
+            velocity,
+            ref,
+            ref_vel,
+            ref_acc,
+            self.params["bandwidth"],
+            self.params["heading_bandwidth"],
+            vel,
+            acc,
         )
         return BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))

@@ -81,10 +81,16 @@ class LQR(TrackerBase):
     """
 
     PARAMS: ClassVar[dict[str, Param]] = {
-        "max_position_error": Param("length", 0.05, "Bryson: largest acceptable position error", gt=0.0),
-        "max_heading_error": Param("angle", 0.15, "Bryson: largest acceptable heading error", gt=0.0),
+        "max_position_error": Param(
+            "length", 0.05, "Bryson: largest acceptable position error", gt=0.0
+        ),
+        "max_heading_error": Param(
+            "angle", 0.15, "Bryson: largest acceptable heading error", gt=0.0
+        ),
         "max_speed_correction": Param("speed", 0.3, "Bryson: largest speed correction", gt=0.0),
-        "max_turn_correction": Param("angular_speed", 1.5, "Bryson: largest turn-rate correction", gt=0.0),
+        "max_turn_correction": Param(
+            "angular_speed", 1.5, "Bryson: largest turn-rate correction", gt=0.0
+        ),
         "min_speed": Param("speed", 0.02, "smallest design speed of the schedule", gt=0.0),
         "schedule_points": Param("count", 16, "design speeds per direction", ge=2),
     }
@@ -139,7 +145,9 @@ class LQR(TrackerBase):
         pose, velocity = self._check_batch(pose, velocity)
         ref, ref_vel, ref_acc = reference(self.plan, t)
         vel = np.empty((self.n, 3))
-        _lqr_kernel(pose, ref, float(ref_vel[0]), float(ref_vel[2]), self.gain(float(ref_vel[0])), vel)
+        _lqr_kernel(
+            pose, ref, float(ref_vel[0]), float(ref_vel[2]), self.gain(float(ref_vel[0])), vel
+        )
         acc = np.zeros((self.n, 3))
         acc[:, 0] = ref_acc[0]
         acc[:, 2] = ref_acc[2]

@@ -10,7 +10,12 @@ from numba import njit
 from planners.params import Param
 from planners.plan import Plan
 from planners.trackers.base import (
-    TRACKERS, BodyCommand, TrackerBase, reference, travel_accel, travel_speed,
+    ALONG_TRACK_PARAM,
+    TRACKERS,
+    AlongTrack,
+    BodyCommand,
+    TrackerBase,
+    reference,
 )
 from planners.trackers.geometry import Progress, circle_crossing, search_window
 
@@ -51,19 +56,19 @@ def pursuit_curvature(goal: np.ndarray) -> np.ndarray:
 
 
 @njit(cache=True)
-def _pursuit_kernel(ps, px, py, s, pose, speed, lookahead, vel_out, target_out):
+def _pursuit_kernel(ps, px, py, end_heading, s, pose, speed, lookahead, vel_out, target_out):
     for i in range(pose.shape[0]):
         x = pose[i, 0]
         y = pose[i, 1]
-        gx, gy = circle_crossing(ps, px, py, s[i], x, y, lookahead)
+        gx, gy = circle_crossing(ps, px, py, end_heading, s[i], x, y, lookahead)
         c = np.cos(pose[i, 2])
         sn = np.sin(pose[i, 2])
         dx = gx - x
         dy = gy - y
         kappa = _curvature_one(c * dx + sn * dy, -sn * dx + c * dy)
-        vel_out[i, 0] = speed
+        vel_out[i, 0] = speed[i]
         vel_out[i, 1] = 0.0
-        vel_out[i, 2] = speed * kappa
+        vel_out[i, 2] = speed[i] * kappa
         target_out[i, 0] = gx
         target_out[i, 1] = gy
 
@@ -76,16 +81,21 @@ class PurePursuit(TrackerBase):
     Carnegie Mellon University, CMU-RI-TR-92-01 (1992).
 
     Each tick the robot is projected onto the path; the goal point is the first path point
-    ahead of that projection lying one lookahead distance ``L`` from the robot (Coulter: "find the
-    goal point"); the robot drives the arc through it, of curvature
-    ``2 y / L^2`` with ``y`` the goal's lateral offset in the robot frame (Coulter's derivation). The
-    speed is the plan's speed at time ``t`` (negative on reversed legs, then the arc is
-    driven backwards); the heading rate is ``speed * curvature``. Feedforward acceleration is
-    the plan's. On a mecanum chassis it drives like a differential one (``vy = 0``) and follows
-    the path tangent, not the plan's heading schedule.
+    ahead of that projection lying one lookahead distance ``L`` from the robot (Coulter: "find
+    the goal point"); the robot drives the arc through it, of curvature ``2 y / L^2`` with
+    ``y`` the goal's lateral offset in the robot frame (Coulter's derivation). The speed is the
+    plan's speed at time ``t`` (negative on reversed legs, then the arc is driven backwards)
+    plus along-track feedback (:class:`~planners.trackers.base.AlongTrack`, our addition, off
+    with ``along_track_gain = 0``); the heading rate is ``speed * curvature``. Feedforward
+    acceleration is the plan's. On a mecanum chassis it drives like a differential one
+    (``vy = 0``) and follows the path tangent, not the plan's heading schedule.
 
     ``L = lookahead + lookahead_time * |plan speed|`` (fixed when ``lookahead_time = 0``).
-    When the robot is farther than ``L`` from the path the goal is its nearest path point.
+    When the robot is farther than ``L`` from the path the goal is its nearest path point;
+    near the end the path is extended along its final direction, so the robot arrives aligned
+    with it rather than turning onto the last point.
+    On a curve of radius R the robot settles about ``L^2 / (2 R)`` inside the path (the goal
+    lies on the path, the robot on a chord-cutting circle): the usual pure-pursuit trade-off.
 
     Convergence: linearised about a straight path, lateral error e obeys
     ``e'' + (2 v / L) e' + (2 v^2 / L^2) e = 0`` (natural frequency ``sqrt(2) v / L``, damping
@@ -94,8 +104,13 @@ class PurePursuit(TrackerBase):
     """
 
     PARAMS: ClassVar[dict[str, Param]] = {
-        "lookahead": Param("length", 0.3, "lookahead distance (the minimum one with lookahead_time)", gt=0.0),
-        "lookahead_time": Param("time", 0.0, "lookahead grows by this time times the plan speed", ge=0.0),
+        "lookahead": Param(
+            "length", 0.3, "lookahead distance (the minimum one with lookahead_time)", gt=0.0
+        ),
+        "along_track_gain": ALONG_TRACK_PARAM,
+        "lookahead_time": Param(
+            "time", 0.0, "lookahead grows by this time times the plan speed", ge=0.0
+        ),
     }
 
     def reset(self, plan: Plan, n: int) -> None:
@@ -103,6 +118,7 @@ class PurePursuit(TrackerBase):
         self.plan = plan
         self.n = int(n)
         self._progress = Progress(plan, self.n)
+        self._along = AlongTrack(plan, self.params["along_track_gain"])
 
     def lookahead_at(self, speed: float) -> float:
         """Lookahead distance at plan speed ``speed`` [m]."""
@@ -115,18 +131,28 @@ class PurePursuit(TrackerBase):
     def command(self, t: float, pose: np.ndarray, velocity: np.ndarray) -> BodyCommand:
         """Arc through the goal point at the plan's speed; see the class docstring."""
         pose, velocity = self._check_batch(pose, velocity)
-        _, ref_vel, ref_acc = reference(self.plan, t)
-        speed = travel_speed(ref_vel)
-        back, ahead = search_window(speed, self.plan.dt)
+        _, _, ref_acc = reference(self.plan, t)
+        plan_speed = self._along.plan_speed(t)
+        back, ahead = search_window(self._along.top, self.plan.dt)
         self._progress.update(pose[:, :2], back=back, ahead=ahead)
+        speed, _ = self._along.speed(t, self._progress.s)
         plan = self.plan
         vel = np.empty((self.n, 3))
         target = np.empty((self.n, 2))
         _pursuit_kernel(
-            plan.path_s, plan.path_x, plan.path_y, self._progress.s, pose, speed,
-            self.lookahead_at(speed), vel, target,
+            plan.path_s,
+            plan.path_x,
+            plan.path_y,
+            float(plan.path_heading[-1]),
+            self._progress.s,
+            pose,
+            speed,
+            self.lookahead_at(plan_speed),
+            vel,
+            target,
         )
         acc = np.zeros((self.n, 3))
-        acc[:, 0] = travel_accel(ref_vel, ref_acc)
-        acc[:, 2] = ref_acc[2]
+        acc[:, 0] = self._along.accel(t)
+        # the plan's heading schedule is the path tangent's unless the plan strafes
+        acc[:, 2] = 0.0 if self._along.strafing else ref_acc[2]
         return BodyCommand(velocity=vel, accel=acc, target=target)

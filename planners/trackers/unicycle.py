@@ -61,7 +61,9 @@ class Unicycle(TrackerBase):
 
     PARAMS: ClassVar[dict[str, Param]] = {
         "zeta": Param("dimensionless", 0.7, "damping of the linearised error", gt=0.0, lt=1.0),
-        "b": Param("dimensionless", 25.0, "gain b [1/m^2]: natural frequency sqrt(w_d^2 + b v_d^2)", gt=0.0),
+        "b": Param(
+            "dimensionless", 25.0, "gain b [1/m^2]: natural frequency sqrt(w_d^2 + b v_d^2)", gt=0.0
+        ),
     }
 
     def reset(self, plan: Plan, n: int) -> None:
@@ -70,7 +72,7 @@ class Unicycle(TrackerBase):
         self.n = int(n)
 
     def natural_frequency(self, speed: float, turn_rate: float = 0.0) -> float:
-        """``a = sqrt(omega_d^2 + b v_d^2)`` [rad/s]."""
+        """Return the natural frequency ``a = sqrt(omega_d^2 + b v_d^2)`` [rad/s]."""
         return float(np.sqrt(turn_rate**2 + self.params["b"] * speed**2))
 
     def halving_time(self, speed: float, turn_rate: float = 0.0) -> float:
@@ -83,8 +85,13 @@ class Unicycle(TrackerBase):
         ref, ref_vel, ref_acc = reference(self.plan, t)
         vel = np.empty((self.n, 3))
         _unicycle_kernel(
-            pose, ref, float(ref_vel[0]), float(ref_vel[2]), self.params["zeta"],
-            self.params["b"], vel,
+            pose,
+            ref,
+            float(ref_vel[0]),
+            float(ref_vel[2]),
+            self.params["zeta"],
+            self.params["b"],
+            vel,
         )
         acc = np.zeros((self.n, 3))
         acc[:, 0] = ref_acc[0]

@@ -84,7 +84,7 @@ class VoltageScript(TrackerBase):
         self.n = int(n)
 
     def command(self, t: float, pose: np.ndarray, velocity: np.ndarray) -> BodyCommand:
-        """The duties of the step holding at ``t``, shape (N, W)."""
+        """Return the duties of the step holding at ``t``, shape (N, W)."""
         self._check_batch(pose, velocity)
         j = int(np.searchsorted(self.until, float(t), side="right"))
         zeros = np.zeros((self.n, 3))

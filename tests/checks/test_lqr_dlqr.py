@@ -24,7 +24,9 @@ DT = 0.005
 
 
 def _c2d(a, b, dt):
-    sys = control.c2d(control.ss(a, b, np.eye(a.shape[0]), np.zeros((a.shape[0], b.shape[1]))), dt, "zoh")
+    sys = control.c2d(
+        control.ss(a, b, np.eye(a.shape[0]), np.zeros((a.shape[0], b.shape[1]))), dt, "zoh"
+    )
     return np.asarray(sys.A), np.asarray(sys.B)
 
 
@@ -69,9 +71,12 @@ def test_tracker_schedule_equals_dlqr():
     tracker = make_tracker("lqr", chassis="differential")
     tracker.reset(plan, 1)
     p = tracker.params
-    q = np.diag(1.0 / np.array([p["max_position_error"], p["max_position_error"], p["max_heading_error"]]) ** 2)
+    q = np.diag(
+        1.0
+        / np.array([p["max_position_error"], p["max_position_error"], p["max_heading_error"]]) ** 2
+    )
     r = np.diag(1.0 / np.array([p["max_speed_correction"], p["max_turn_correction"]]) ** 2)
-    for speed, gain in zip(tracker.schedule_speeds, tracker.schedule_gains):
+    for speed, gain in zip(tracker.schedule_speeds, tracker.schedule_gains, strict=True):
         ad, bd = _c2d(*error_model(speed), plan.dt)
         k_ref, _, _ = control.dlqr(ad, bd, q, r)
         np.testing.assert_allclose(gain, k_ref, rtol=1e-9, atol=1e-12)

@@ -53,7 +53,9 @@ def test_tracker_steers_on_the_coulter_arc(offset, lookahead):
     # robot beside a straight path along +x at x = 1: the goal is where the circle of radius
     # L meets the path, at (1 + sqrt(L^2 - y^2), 0); curvature 2 (-y) / L^2 (Coulter 1992)
     plan = line_plan(speed=0.5, length=3.0)
-    tracker = make_tracker("pure-pursuit", chassis="differential", lookahead=lookahead)
+    tracker = make_tracker(
+        "pure-pursuit", chassis="differential", lookahead=lookahead, along_track_gain=0.0
+    )
     tracker.reset(plan, 1)
     pose = np.array([[1.0, offset, 0.0]])
     for k in range(200):  # walk the projection to x = 1 as the robot would arrive there
@@ -62,4 +64,6 @@ def test_tracker_steers_on_the_coulter_arc(offset, lookahead):
     goal_x = 1.0 + np.sqrt(lookahead**2 - offset**2)
     np.testing.assert_allclose(cmd.target, [[goal_x, 0.0]], atol=1e-12)
     assert cmd.velocity[0, 0] == pytest.approx(0.5)
-    assert cmd.velocity[0, 2] / cmd.velocity[0, 0] == pytest.approx(-2 * offset / lookahead**2, rel=1e-12)
+    assert cmd.velocity[0, 2] / cmd.velocity[0, 0] == pytest.approx(
+        -2 * offset / lookahead**2, rel=1e-12
+    )

@@ -51,7 +51,9 @@ PLANS = {
     "circle": lambda: circle_plan(radius=1.0, speed=0.5, turns=0.6),
 }
 # 0.1 m off sideways, 10 deg off in heading, in every sign combination
-OFFSETS = np.array([[0.0, 0.1, 0.1745], [0.0, -0.1, 0.1745], [0.0, 0.1, -0.1745], [0.0, -0.1, -0.1745]])
+OFFSETS = np.array(
+    [[0.0, 0.1, 0.1745], [0.0, -0.1, 0.1745], [0.0, 0.1, -0.1745], [0.0, -0.1, -0.1745]]
+)
 
 
 def _errors(plan, poses, geometric):

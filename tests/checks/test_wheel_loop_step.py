@@ -24,9 +24,17 @@ from planners.control import WheelController, discretise_first_order, feedforwar
 DT = 0.005
 VOLTAGE = 12.0
 MOTOR = feedforward_from_motor(
-    free_speed=6000 * 2 * np.pi / 60, stall_torque=0.4, stall_current=30.0, free_current=0.8,
-    voltage=VOLTAGE, gear_ratio=15.0, gear_efficiency=0.9, mass_share=4.0, wheel_radius=0.05,
-    wheel_inertia=3e-4, wheels=1,
+    free_speed=6000 * 2 * np.pi / 60,
+    stall_torque=0.4,
+    stall_current=30.0,
+    free_current=0.8,
+    voltage=VOLTAGE,
+    gear_ratio=15.0,
+    gear_efficiency=0.9,
+    mass_share=4.0,
+    wheel_radius=0.05,
+    wheel_inertia=3e-4,
+    wheels=1,
 )
 
 
@@ -39,7 +47,9 @@ def _step(ctl: WheelController, target: float, *, plant_scale: float = 1.0, tick
     out = np.empty(ticks)
     for k in range(ticks):
         out[k] = w
-        duty = ctl.duty(np.array([[target]]), np.zeros((1, 1)), np.array([[w]]), np.array([VOLTAGE]))
+        duty = ctl.duty(
+            np.array([[target]]), np.zeros((1, 1)), np.array([[w]]), np.array([VOLTAGE])
+        )
         u = float(duty[0, 0]) * VOLTAGE
         # static friction: the wheel starts only when u exceeds kS (target > 0 here)
         w = ad * w + bd * (u - ks) if (w > 0.0 or u > ks) else 0.0

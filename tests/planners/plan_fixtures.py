@@ -86,35 +86,50 @@ def plan_from_curve(
     )
 
 
-def line_plan(*, speed: float = 0.5, length: float = 3.0, dt: float = 0.005,
-              reverse: bool = False) -> Plan:
+def line_plan(
+    *, speed: float = 0.5, length: float = 3.0, dt: float = 0.005, reverse: bool = False
+) -> Plan:
     """Straight line from the origin along +x at constant ``speed``."""
 
     def curve(t):
         z = np.zeros_like(t)
-        return (np.column_stack([speed * t, z]), np.column_stack([z + speed, z]),
-                np.column_stack([z, z]), np.column_stack([z, z]))
+        return (
+            np.column_stack([speed * t, z]),
+            np.column_stack([z + speed, z]),
+            np.column_stack([z, z]),
+            np.column_stack([z, z]),
+        )
 
     return plan_from_curve(curve, length / speed, dt=dt, reverse=reverse, name="line")
 
 
-def circle_plan(*, radius: float = 1.0, speed: float = 0.5, turns: float = 1.0,
-                dt: float = 0.005) -> Plan:
+def circle_plan(
+    *, radius: float = 1.0, speed: float = 0.5, turns: float = 1.0, dt: float = 0.005
+) -> Plan:
     """Counter-clockwise circle from the origin, heading +x, centre (0, radius)."""
     w = speed / radius
 
     def curve(t):
         c, s = np.cos(w * t), np.sin(w * t)
         r = radius
-        return (np.column_stack([r * s, r * (1 - c)]), np.column_stack([r * w * c, r * w * s]),
-                np.column_stack([-r * w**2 * s, r * w**2 * c]),
-                np.column_stack([-r * w**3 * c, -r * w**3 * s]))
+        return (
+            np.column_stack([r * s, r * (1 - c)]),
+            np.column_stack([r * w * c, r * w * s]),
+            np.column_stack([-r * w**2 * s, r * w**2 * c]),
+            np.column_stack([-r * w**3 * c, -r * w**3 * s]),
+        )
 
     return plan_from_curve(curve, turns * 2 * np.pi / w, dt=dt, name="circle")
 
 
-def figure_eight_plan(*, size: float = 1.0, period: float = 20.0, dt: float = 0.005,
-                      heading: str = "tangent", hold: float = 0.0) -> Plan:
+def figure_eight_plan(
+    *,
+    size: float = 1.0,
+    period: float = 20.0,
+    dt: float = 0.005,
+    heading: str = "tangent",
+    hold: float = 0.0,
+) -> Plan:
     """Lemniscate of Gerono x = a sin(phi), y = (a/2) sin(2 phi), phi = 2 pi t / period.
 
     One full figure-eight, from the crossing point at the origin heading 45 deg; speeds

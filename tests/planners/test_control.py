@@ -17,9 +17,18 @@ from planners.control import (
 from planners.errors import ScenarioError
 
 MOTOR = dict(
-    free_speed=5000 * 2 * np.pi / 60, stall_torque=0.35, stall_current=25.0, free_current=0.7,
-    voltage=12.0, gear_ratio=19.2, gear_efficiency=0.85, mass_share=3.0, wheel_radius=0.05,
-    wheel_inertia=2e-4, rotor_inertia=3e-6, wheels=4,
+    free_speed=5000 * 2 * np.pi / 60,
+    stall_torque=0.35,
+    stall_current=25.0,
+    free_current=0.7,
+    voltage=12.0,
+    gear_ratio=19.2,
+    gear_efficiency=0.85,
+    mass_share=3.0,
+    wheel_radius=0.05,
+    wheel_inertia=2e-4,
+    rotor_inertia=3e-6,
+    wheels=4,
 )
 
 
@@ -142,8 +151,12 @@ def test_batch_equals_runs_of_one():
     for i in range(n):
         ctl.reset(1)
         one = np.stack(
-            [ctl.duty(target[k, i:i + 1], accel[k, i:i + 1], meas[k, i:i + 1], vb[k, i:i + 1])
-             for k in range(ticks)]
+            [
+                ctl.duty(
+                    target[k, i : i + 1], accel[k, i : i + 1], meas[k, i : i + 1], vb[k, i : i + 1]
+                )
+                for k in range(ticks)
+            ]
         )
         np.testing.assert_array_equal(one[:, 0], batch[:, i])
     assert np.all(np.abs(batch) <= 1.0)

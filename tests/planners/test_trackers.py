@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 
 import planners.registry
+from planners import se2
 from planners.errors import RegistryError, ScenarioError
 from planners.registry import Registry
 from planners.trackers import TRACKERS, BodyCommand, Tracker, make_tracker
@@ -27,7 +28,12 @@ def test_conformance(name):
 
 def test_builtin_names():
     assert set(TRACKERS.names()) >= {
-        "pure-pursuit", "stanley", "unicycle", "lqr", "holonomic", "voltage-script"
+        "pure-pursuit",
+        "stanley",
+        "unicycle",
+        "lqr",
+        "holonomic",
+        "voltage-script",
     }
     assert TRACKERS.group == "skidpad.trackers"
 
@@ -38,22 +44,31 @@ def test_unknown_name_suggests():
 
 
 def test_entry_point_discovery(monkeypatch):
-    ep = EntryPoint(name="spiral", value="planners.trackers.unicycle:Unicycle", group="skidpad.trackers")
-    monkeypatch.setattr(planners.registry, "entry_points", lambda group: [ep] if group == "skidpad.trackers" else [])
+    ep = EntryPoint(
+        name="spiral", value="planners.trackers.unicycle:Unicycle", group="skidpad.trackers"
+    )
+    monkeypatch.setattr(
+        planners.registry, "entry_points", lambda group: [ep] if group == "skidpad.trackers" else []
+    )
     reg = Registry("tracker", "skidpad.trackers")
     assert reg.names() == ["spiral"]
     assert reg.get("spiral").__name__ == "Unicycle"
 
 
 def test_chassis_is_checked():
-    with pytest.raises(ScenarioError, match="tracker: kind 'holonomic' must drive one of mecanum, got chassis 'skid'"):
+    with pytest.raises(
+        ScenarioError,
+        match="tracker: kind 'holonomic' must drive one of mecanum, got chassis 'skid'",
+    ):
         make_tracker("holonomic", chassis="skid")
     with pytest.raises(ScenarioError, match="did you mean differential"):
         make_tracker("lqr", chassis="diferential")
 
 
 def test_params_are_checked():
-    with pytest.raises(ScenarioError, match="tracker: lookahed must be one of .*did you mean lookahead"):
+    with pytest.raises(
+        ScenarioError, match="tracker: lookahed must be one of .*did you mean lookahead"
+    ):
         make_tracker("pure-pursuit", chassis="skid", lookahed=0.2)
     with pytest.raises(ScenarioError, match="tracker: lookahead must be > 0, got -0.1"):
         make_tracker("pure-pursuit", chassis="skid", lookahead=-0.1)
@@ -119,8 +134,14 @@ def test_voltage_script_steps():
     ("steps", "match"),
     [
         ([], "step must be one or more tables"),
-        ([{"until": 1.0, "duty": [0.1]}, {"until": 1.0, "duty": [0.1]}], r"step\[1\]: until must be > 1"),
-        ([{"until": 1.0, "duty": [0.1, 0.2]}, {"until": 2.0, "duty": [0.1]}], r"step\[1\]: duty must have one value per wheel"),
+        (
+            [{"until": 1.0, "duty": [0.1]}, {"until": 1.0, "duty": [0.1]}],
+            r"step\[1\]: until must be > 1",
+        ),
+        (
+            [{"until": 1.0, "duty": [0.1, 0.2]}, {"until": 2.0, "duty": [0.1]}],
+            r"step\[1\]: duty must have one value per wheel",
+        ),
         ([{"until": 1.0, "duty": [1.5]}], r"step\[0\]: duty must be >= -1 and <= 1"),
         ([{"untill": 1.0, "duty": [0.5]}], r"step\[0\]: untill .*did you mean until"),
     ],
@@ -135,3 +156,63 @@ def test_command_checks_batch_shape():
     tr.reset(PLAN, 2)
     with pytest.raises(ValueError, match=r"must have shape \(2, 3\)"):
         tr.command(0.0, np.zeros((3, 3)), np.zeros((3, 3)))
+
+
+@pytest.mark.parametrize("name", ["pure-pursuit", "stanley", "unicycle", "lqr", "holonomic"])
+def test_on_plan_the_command_is_the_plan(name):
+    # started exactly on the plan, every tracker asks for the plan's speed and accel; the
+    # timed ones for its turn rate too (path trackers steer on their own geometry)
+    plan = figure_eight_plan(size=1.0, period=10.0)
+    tracker = make_tracker(name, chassis="mecanum")
+    tracker.reset(plan, 1)
+    for k in range(400):
+        cmd = tracker.command(k * plan.dt, plan.pose[k : k + 1], plan.velocity[k : k + 1])
+        if k % 40 == 0:
+            # path trackers: speed only, and their along-track feedback sees the polyline
+            geometric = name in ("pure-pursuit", "stanley")
+            checked = slice(0, 2) if geometric else slice(0, 3)
+            np.testing.assert_allclose(
+                cmd.velocity[0, checked],
+                plan.velocity[k, checked],
+                atol=2e-3 if geometric else 1e-4,
+            )
+            np.testing.assert_allclose(cmd.accel[0], plan.accel[k], atol=1e-9)
+
+
+def test_holonomic_accel_is_the_derivative_of_its_command():
+    # off the plan, on an ideal plant: the body accel returned equals the time derivative of
+    # the body velocity commanded (central differences over the run)
+    plan = figure_eight_plan(size=1.0, period=10.0, heading="hold", hold=0.3)
+    tracker = make_tracker("holonomic", chassis="mecanum", bandwidth=3.0, heading_bandwidth=2.0)
+    tracker.reset(plan, 1)
+    pose = se2.compose(plan.pose[:1], np.array([[0.05, -0.08, 0.3]]))
+    vel = plan.velocity[:1].copy()
+    vs, accs = [], []
+    for k in range(300):
+        cmd = tracker.command(k * plan.dt, pose, vel)
+        vs.append(cmd.velocity[0])
+        accs.append(cmd.accel[0])
+        vel = cmd.velocity
+        pose = se2.compose(pose, se2.exp(vel * plan.dt))
+    vs, accs = np.array(vs), np.array(accs)
+    fd = (vs[2:] - vs[:-2]) / (2 * plan.dt)
+    np.testing.assert_allclose(accs[1:-1], fd, atol=0.03 * np.max(np.abs(accs)))
+
+
+def test_along_track_speed():
+    from planners.trackers.base import AlongTrack
+
+    plan = line_plan(speed=0.5, length=3.0)
+    along = AlongTrack(plan, 2.0)
+    k = 200  # plan at s = 0.5 m
+    speed, direction = along.speed(k * plan.dt, np.array([0.5, 0.4, 0.6, 0.9]))
+    # on time; behind (catch-up capped at the plan's top speed); ahead (slower); far ahead
+    np.testing.assert_allclose(speed, [0.5, 0.5, 0.3, 0.0])
+    assert direction == 1.0
+    # past the end the plan stops; a robot short of the end creeps on to it
+    speed, _ = along.speed(plan.duration + 1.0, np.array([plan.length - 0.01]))
+    assert speed[0] == pytest.approx(0.02)
+    back = AlongTrack(line_plan(speed=0.5, length=3.0, reverse=True), 1.0)
+    assert back.speed(1.0, np.array([0.5]))[0][0] == pytest.approx(-0.5) and not back.strafing
+    strafe = AlongTrack(figure_eight_plan(heading="hold", hold=2.5), 1.0)
+    assert strafe.strafing and np.all(strafe.direction == 1.0)

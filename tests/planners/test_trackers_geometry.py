@@ -38,20 +38,27 @@ def test_circle_crossing_matches_brute_force(seed):
     x, y, _ = path_state(PLAN, np.array([s0]))
     q = np.array([x[0], y[0]]) + rng.normal(0.0, 0.05, 2)
     radius = rng.uniform(0.1, 0.6)
-    got = circle_crossing(PLAN.path_s, PLAN.path_x, PLAN.path_y, s0, q[0], q[1], radius)
+    got = circle_crossing(
+        PLAN.path_s, PLAN.path_x, PLAN.path_y, PLAN.path_heading[-1], s0, q[0], q[1], radius
+    )
     np.testing.assert_allclose(got, _brute_crossing(PLAN, s0, q, radius), atol=2e-5)
     assert np.hypot(got[0] - q[0], got[1] - q[1]) == pytest.approx(radius, abs=1e-9)
 
 
 def test_circle_crossing_edge_cases():
-    ps, px, py = PLAN.path_s, PLAN.path_x, PLAN.path_y
+    ps, px, py, h_end = PLAN.path_s, PLAN.path_x, PLAN.path_y, PLAN.path_heading[-1]
     # the start point is already outside: it is the goal
-    got = circle_crossing(ps, px, py, 1.0, 5.0, 5.0, 0.3)
+    got = circle_crossing(ps, px, py, h_end, 1.0, 5.0, 5.0, 0.3)
     expected = path_state(PLAN, np.array([1.0]))
     assert got == pytest.approx((expected[0][0], expected[1][0]), abs=1e-12)
-    # the path ends inside the circle: its last point
-    got = circle_crossing(ps, px, py, PLAN.length - 0.05, px[-1], py[-1], 0.3)
-    assert got == (px[-1], py[-1])
+    # the path ends inside the circle: the crossing of the ray along the final direction
+    q = (px[-1] - 0.02, py[-1] + 0.01)
+    got = np.array(circle_crossing(ps, px, py, h_end, PLAN.length - 0.05, q[0], q[1], 0.3))
+    along = np.array([np.cos(h_end), np.sin(h_end)])
+    rel = got - np.array([px[-1], py[-1]])
+    assert along[0] * rel[1] - along[1] * rel[0] == pytest.approx(0.0, abs=1e-12)  # on the ray
+    assert rel @ along > 0.0
+    assert np.hypot(got[0] - q[0], got[1] - q[1]) == pytest.approx(0.3, abs=1e-12)
 
 
 def test_curvature_of_a_circle():
