@@ -180,7 +180,7 @@ class Simulation:
         else:
             target = self.geom.inverse(cmd.velocity)
             duty = self.wheels.duty(target, self.geom.inverse(cmd.accel), measured, w.battery_voltage)
-        duty = np.where(self.active[:, None], duty, 0.0)
+        duty = self.duty = np.where(self.active[:, None], duty, 0.0)
         self.score.update(
             self.k, t, self.active, w.pose, self.estimate, self.covariance, duty, w.motor_current, w.battery_voltage
         )

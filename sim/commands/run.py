@@ -28,6 +28,10 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--seed", type=int, help="base seed (overrides run.seed)")
     p.add_argument("--run", type=int, default=0, metavar="K", help="run index k within the seed (default 0)")
     p.add_argument("--csv", action="store_true", help="also write trace.csv")
+    p.add_argument(
+        "--log", metavar="LOG.csv",
+        help="also write the run as a robot log (the format `identify` and `replay` read)",
+    )
     p.add_argument("--snapshot", metavar="FILE.png", help="also draw the final frame with the viewer's drawing code")
     p.add_argument("--no-plot", action="store_true", help="skip plot.png")
     p.add_argument("--units", choices=("m", "in"), default="m", help="units of the printed summary")
@@ -67,7 +71,13 @@ def run(args: argparse.Namespace) -> int:
     sim = Simulation(sc, runs=[args.run], keep=[args.run])
     for note in sim.notes:
         print(f"note: {note}")
-    result = sim.run()[0]
+    if args.log:
+        from sim.log_recorder import run_logged
+
+        log_path = run_logged(sim).write(args.log)
+        result = sim.results()[0]
+    else:
+        result = sim.run()[0]
     card = {"scenario": sc.title, "seed": sc.run.seed, "run": args.run, **result.scorecard}
     (out / "scorecard.json").write_text(json.dumps(card, indent=2) + "\n")
     trace = sim.trace()
@@ -85,4 +95,6 @@ def run(args: argparse.Namespace) -> int:
         snapshot(trace, sc, sim.plan, args.snapshot, statuses=[result.scorecard["status"]])
     print_scorecard(card, units=args.units)
     print(f"wrote {out}/scorecard.json, trace.npz, scenario.toml" + ("" if args.no_plot else ", plot.png"))
+    if args.log:
+        print(f"wrote robot log {log_path}")
     return 0
