@@ -114,7 +114,8 @@ class Simulation:
         self.wheels.reset(n)
         until = getattr(self.tracker, "until", None)
         self.script_end = float(until[-1]) if until is not None else None
-        self.timeout = sc.run.timeout_for(self.plan.duration)
+        self.plan_duration = self.plan.duration
+        self.timeout = sc.run.timeout_for(self.plan_duration)
         if self.script_end is not None and sc.run.timeout is None:
             self.timeout = max(self.timeout, self.script_end + 1.0)
         self.max_ticks = int(math.ceil(self.timeout / self.dt)) + 1
@@ -210,29 +211,35 @@ class Simulation:
     def _judge(self, t: float, cmd) -> None:
         w = self.world
         sc = self.scenario
-        goal = self.plan.final_pose[0]
-        pos_err = np.hypot(w.pose[:, 0] - goal[0], w.pose[:, 1] - goal[1])
-        head_err = np.abs(wrap(w.pose[:, 2] - goal[2]))
-        speed = np.hypot(w.velocity[:, 0], w.velocity[:, 1])
-        script_done = cmd.duty is not None and self.script_end is not None and t >= self.script_end
-        for i in np.flatnonzero(self.active):
-            if w.diverged[i]:
-                self._end(i, "diverged", t, "non-finite state in the physics")
-            elif sc.run.collision == "stop" and w.contact_count[i] > 0:
-                self._end(i, "collided", t, "touched a wall or obstacle")
-            elif script_done:
-                self._end(i, "completed", t, "voltage script finished")
-            elif (
-                cmd.duty is None
-                and t >= self.plan.duration
-                and pos_err[i] <= sc.run.goal_tolerance
-                and head_err[i] <= sc.run.heading_tolerance
-                and speed[i] <= sc.run.settle_speed
-                and abs(w.velocity[i, 2]) <= 0.1
-            ):
-                self._end(i, "completed", t, "reached the end pose and settled")
-            elif t + self.dt > self.timeout + 1e-12:
-                self._end(i, "timeout", t, f"not settled at the end pose after {self.timeout:g} s")
+        active = self.active
+        diverged = w.diverged & active
+        collided = np.zeros_like(active)
+        if sc.run.collision == "stop":
+            collided = active & ~diverged & (w.contact_count > 0)
+        rest = active & ~diverged & ~collided
+        done = np.zeros_like(active)
+        if cmd.duty is not None:
+            if self.script_end is not None and t >= self.script_end:
+                done = rest
+        elif t >= self.plan_duration:
+            goal = self.plan.final_pose[0]
+            pose, vel = w.pose, w.velocity
+            done = (
+                rest
+                & (np.hypot(pose[:, 0] - goal[0], pose[:, 1] - goal[1]) <= sc.run.goal_tolerance)
+                & (np.abs(wrap(pose[:, 2] - goal[2])) <= sc.run.heading_tolerance)
+                & (np.hypot(vel[:, 0], vel[:, 1]) <= sc.run.settle_speed)
+                & (np.abs(vel[:, 2]) <= 0.1)
+            )
+        late = rest & ~done & (t + self.dt > self.timeout + 1e-12)
+        for mask, status, cause in (
+            (diverged, "diverged", "non-finite state in the physics"),
+            (collided, "collided", "touched a wall or obstacle"),
+            (done, "completed", "voltage script finished" if cmd.duty is not None else "reached the end pose and settled"),
+            (late, "timeout", f"not settled at the end pose after {self.timeout:g} s"),
+        ):
+            for i in np.flatnonzero(mask):
+                self._end(i, status, t, cause)
 
     def run(self) -> list[RunResult]:
         """Step until every run has ended; return one result per run."""

@@ -109,9 +109,13 @@ class ScoreKeeper:
             full[:, 2] = wrap(full[:, 2])
             ok = active & np.all(np.isfinite(covariance.reshape(self.n, -1)), axis=1)
             if ok.any():
-                # pseudo-inverse: a singular covariance (a collapsed particle cloud) must not crash
-                sol = np.einsum("nij,nj->ni", np.linalg.pinv(covariance[ok]), full[ok])
-                self.nees_sum[ok] += np.einsum("ij,ij->i", full[ok], sol)
+                cov, e = covariance[ok], full[ok]
+                try:
+                    sol = np.linalg.solve(cov, e[:, :, None])[:, :, 0]
+                except np.linalg.LinAlgError:
+                    # pseudo-inverse: a singular covariance (a collapsed particle cloud) must not crash
+                    sol = np.einsum("nij,nj->ni", np.linalg.pinv(cov), e)
+                self.nees_sum[ok] += np.einsum("ij,ij->i", e, sol)
                 self.nees_count[ok] += 1
         if self.last_xy is not None:
             step = np.hypot(*(pose[:, :2] - self.last_xy).T)
