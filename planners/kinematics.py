@@ -18,6 +18,7 @@ from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
+from numba import njit
 
 from planners.errors import ScenarioError
 
@@ -124,4 +125,16 @@ class ChassisGeometry:
 def _rows_times(rows: np.ndarray, matrix: np.ndarray) -> np.ndarray:
     """``rows @ matrix.T`` computed row by row, so a robot's result never depends on the batch
     size (BLAS picks different summation orders for different shapes)."""
-    return np.sum(rows[:, None, :] * matrix[None, :, :], axis=2)
+    out = np.empty((rows.shape[0], matrix.shape[0]))
+    _rows_times_kernel(np.ascontiguousarray(rows, dtype=np.float64), np.ascontiguousarray(matrix, dtype=np.float64), out)
+    return out
+
+
+@njit(cache=True)
+def _rows_times_kernel(rows, matrix, out):
+    for i in range(rows.shape[0]):
+        for a in range(matrix.shape[0]):
+            acc = 0.0
+            for b in range(matrix.shape[1]):
+                acc += rows[i, b] * matrix[a, b]
+            out[i, a] = acc

@@ -232,6 +232,8 @@ class Simulation:
                 & (np.abs(vel[:, 2]) <= 0.1)
             )
         late = rest & ~done & (t + self.dt > self.timeout + 1e-12)
+        if not (diverged.any() or collided.any() or done.any() or late.any()):
+            return
         for mask, status, cause in (
             (diverged, "diverged", "non-finite state in the physics"),
             (collided, "collided", "touched a wall or obstacle"),
