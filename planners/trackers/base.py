@@ -268,3 +268,75 @@ class AlongTrack:
         if self.strafing:
             return float(np.hypot(acc[0], acc[1]))
         return float(acc[0])
+
+
+#: the final-alignment keys shared by the trackers that steer a heading-bound chassis
+SETTLE_PARAMS: dict[str, Param] = {
+    "settle_radius": Param(
+        "length", 0.1, "after the plan ends, within this distance of the end the robot stops "
+        "following the path and drives onto the end pose", ge=0.0,
+    ),
+    "settle_gain": Param(
+        "dimensionless", 2.0, "final alignment gain on position along the heading and on heading "
+        "[1/s]", gt=0.0,
+    ),
+}
+
+
+def settle(command: BodyCommand, t: float, plan: Plan, pose: np.ndarray, *, radius: float, gain: float) -> BodyCommand:
+    """Final alignment: past the plan's end, near the end pose, drive onto it.
+
+    A path tracker holds the line but leaves the end pose to chance, and a unicycle law's
+    gains vanish when the reference stops. For each robot within ``radius`` of the end
+    position once ``t`` is past the plan's duration, turn-drive-turn: farther than
+    :data:`SETTLE_DEADBAND` from the end position, turn toward it (or away from it, driving
+    backwards, whichever is the smaller turn) and drive on as the heading comes round,
+    ``vx = gain e_x cos^2(bearing error)``; within it, turn in place onto the end heading,
+    ``omega = gain wrap(h_end - h)`` (turn rates capped at ``gain`` rad/s, no feedforward).
+    Common practice for a heading-bound chassis, no source.
+
+    Parameters
+    ----------
+    command : BodyCommand — the tracker's own command
+    t : float — [s]
+    plan : Plan
+    pose : ndarray, shape (N, 3) — estimated pose [m, m, rad], field frame
+    radius : float — [m]; 0 disables the alignment
+    gain : float — [1/s]
+
+    Returns
+    -------
+    BodyCommand — ``command`` with the aligning robots' rows replaced
+    """
+    if radius <= 0.0 or t < plan.duration:
+        return command
+    goal = plan.final_pose[0]
+    dx, dy = goal[0] - pose[:, 0], goal[1] - pose[:, 1]
+    dist = np.hypot(dx, dy)
+    near = dist <= radius
+    if not near.any():
+        return command
+    heading = pose[:, 2]
+    along = np.cos(heading) * dx + np.sin(heading) * dy
+    to_point = _wrap(np.arctan2(dy, dx) - heading)
+    # drive backwards when the end position lies behind
+    to_point = np.where(np.abs(to_point) > np.pi / 2, _wrap(to_point + np.pi), to_point)
+    to_heading = _wrap(goal[2] - heading)
+    far = dist > SETTLE_DEADBAND
+    turn = np.clip(np.where(far, to_point, to_heading), -1.0, 1.0)
+    vx = gain * along * np.where(far, np.cos(to_point) ** 2, 1.0)
+    vel = command.velocity.copy()
+    acc = command.accel.copy()
+    vel[near, 0] = vx[near]
+    vel[near, 1] = 0.0
+    vel[near, 2] = gain * turn[near]
+    acc[near] = 0.0
+    return BodyCommand(velocity=vel, accel=acc, duty=command.duty, target=command.target)
+
+
+#: final alignment drives to the end position until this close, then turns onto its heading [m]
+SETTLE_DEADBAND = 0.012
+
+
+def _wrap(a: np.ndarray) -> np.ndarray:
+    return np.arctan2(np.sin(a), np.cos(a))

@@ -11,10 +11,12 @@ from planners.params import Param
 from planners.plan import Plan
 from planners.trackers.base import (
     ALONG_TRACK_PARAM,
+    SETTLE_PARAMS,
     TRACKERS,
     AlongTrack,
     BodyCommand,
     TrackerBase,
+    settle,
     reference,
 )
 from planners.trackers.geometry import Progress, circle_crossing, search_window
@@ -111,6 +113,7 @@ class PurePursuit(TrackerBase):
         "lookahead_time": Param(
             "time", 0.0, "lookahead grows by this time times the plan speed", ge=0.0
         ),
+        **SETTLE_PARAMS,
     }
 
     def reset(self, plan: Plan, n: int) -> None:
@@ -155,4 +158,6 @@ class PurePursuit(TrackerBase):
         acc[:, 0] = self._along.accel(t)
         # the plan's heading schedule is the path tangent's unless the plan strafes
         acc[:, 2] = 0.0 if self._along.strafing else ref_acc[2]
-        return BodyCommand(velocity=vel, accel=acc, target=target)
+        cmd = BodyCommand(velocity=vel, accel=acc, target=target)
+        p = self.params
+        return settle(cmd, t, self.plan, pose, radius=p["settle_radius"], gain=p["settle_gain"])

@@ -12,10 +12,12 @@ from planners.plan import Plan
 from planners.se2 import wrap_one
 from planners.trackers.base import (
     ALONG_TRACK_PARAM,
+    SETTLE_PARAMS,
     TRACKERS,
     AlongTrack,
     BodyCommand,
     TrackerBase,
+    settle,
     reference,
 )
 from planners.trackers.geometry import Progress, path_point, search_window
@@ -114,6 +116,7 @@ class Stanley(TrackerBase):
         "max_steer": Param(
             "angle", 1.2, "limit of the virtual steering angle", gt=0.0, lt=1.5707963
         ),
+        **SETTLE_PARAMS,
     }
 
     def reset(self, plan: Plan, n: int) -> None:
@@ -172,4 +175,6 @@ class Stanley(TrackerBase):
         acc[:, 0] = self._along.accel(t)
         # the plan's heading schedule is the path tangent's unless the plan strafes
         acc[:, 2] = 0.0 if self._along.strafing else ref_acc[2]
-        return BodyCommand(velocity=vel, accel=acc, target=target)
+        cmd = BodyCommand(velocity=vel, accel=acc, target=target)
+        p = self.params
+        return settle(cmd, t, self.plan, pose, radius=p["settle_radius"], gain=p["settle_gain"])

@@ -10,7 +10,7 @@ from numba import njit
 from planners.params import Param
 from planners.plan import Plan
 from planners.se2 import wrap_one
-from planners.trackers.base import TRACKERS, BodyCommand, TrackerBase, reference
+from planners.trackers.base import SETTLE_PARAMS, TRACKERS, BodyCommand, TrackerBase, reference, settle
 
 
 @njit(cache=True)
@@ -64,6 +64,7 @@ class Unicycle(TrackerBase):
         "b": Param(
             "dimensionless", 25.0, "gain b [1/m^2]: natural frequency sqrt(w_d^2 + b v_d^2)", gt=0.0
         ),
+        **SETTLE_PARAMS,
     }
 
     def reset(self, plan: Plan, n: int) -> None:
@@ -96,4 +97,6 @@ class Unicycle(TrackerBase):
         acc = np.zeros((self.n, 3))
         acc[:, 0] = ref_acc[0]
         acc[:, 2] = ref_acc[2]
-        return BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))
+        cmd = BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))
+        p = self.params
+        return settle(cmd, t, self.plan, pose, radius=p["settle_radius"], gain=p["settle_gain"])
