@@ -1,4 +1,4 @@
-"""Wheel control: feedforward from kS, kV, kA, PI(D) feedback on wheel speed, LQR synthesis.
+"""Wheel control: feedforward from kS, kV, kA and PI(D) feedback on wheel speed.
 
 One control tick, per wheel ``j`` of robot ``i`` (wheel speeds are wheel-shaft angular speeds
 [rad/s], positive driving the robot forward on differential and skid chassis)::
@@ -17,8 +17,9 @@ change as the battery sags.
 
 The constants kS [V], kV [V s/rad], kA [V s^2/rad] come from ``[control]`` or, when absent,
 from the motor datasheet through :func:`feedforward_from_motor`. kP and kI, when absent,
-come from :func:`velocity_lqr` (discrete LQR on the first-order velocity model with Bryson's
-weights) and :func:`simc_integral_gain` (Skogestad's SIMC rule for the integral time).
+come from :func:`planners.gains.velocity_lqr` (discrete LQR on the first-order velocity model with
+Bryson's weights) and :func:`planners.gains.simc_integral_gain` (Skogestad's SIMC rule for the
+integral time).
 """
 
 from __future__ import annotations
@@ -27,10 +28,10 @@ from dataclasses import dataclass
 from typing import Any, ClassVar
 
 import numpy as np
-import scipy.linalg
 from numba import njit
 
 from planners.errors import ScenarioError
+from planners.gains import simc_integral_gain, velocity_lqr, wheel_loop_weights
 from planners.params import Param
 
 
@@ -169,168 +170,6 @@ def feedforward_from_motor(
     kv = ke * g
     ka = resistance / kt * (a["rotor_inertia"] * g + j_load / (eta * g))
     return Feedforward(kS=ks, kV=kv, kA=ka, voltage=float(voltage))
-
-
-# ---------------------------------------------------------------- gain synthesis
-
-
-def discretise_first_order(kV: float, kA: float, dt: float) -> tuple[float, float]:
-    """Exact zero-order-hold discretisation of ``kA dw/dt + kV w = u``.
-
-    Parameters
-    ----------
-    kV : float — [V s/rad], > 0
-    kA : float — [V s^2/rad], > 0
-    dt : float — sample period [s]
-
-    Returns
-    -------
-    Ad, Bd : float — ``w[k+1] = Ad w[k] + Bd u[k]``: ``Ad = exp(-kV dt / kA)``,
-        ``Bd = (1 - Ad) / kV`` [rad/s per V]
-    """
-    ad = float(np.exp(-kV / kA * dt))
-    return ad, (1.0 - ad) / kV
-
-
-def discretise(a: np.ndarray, b: np.ndarray, dt: float) -> tuple[np.ndarray, np.ndarray]:
-    """Exact zero-order-hold discretisation of ``dx/dt = A x + B u``.
-
-    Uses the matrix exponential of the block matrix ``[[A, B], [0, 0]] dt`` (Van Loan 1978).
-
-    Parameters
-    ----------
-    a : ndarray, shape (n, n)
-    b : ndarray, shape (n, m)
-    dt : float — [s]
-
-    Returns
-    -------
-    Ad : ndarray, shape (n, n)
-    Bd : ndarray, shape (n, m)
-    """
-    a = np.atleast_2d(np.asarray(a, dtype=np.float64))
-    b = np.asarray(b, dtype=np.float64).reshape(a.shape[0], -1)
-    n, m = b.shape
-    block = np.zeros((n + m, n + m))
-    block[:n, :n] = a * dt
-    block[:n, n:] = b * dt
-    e = scipy.linalg.expm(block)
-    return e[:n, :n], e[:n, n:]
-
-
-def bryson(
-    max_state: np.ndarray | float, max_input: np.ndarray | float
-) -> tuple[np.ndarray, np.ndarray]:
-    """Bryson's rule: diagonal weights ``1 / max^2`` (Bryson & Ho, *Applied Optimal Control*, 1975).
-
-    Parameters
-    ----------
-    max_state : array_like, shape (n,) — largest acceptable value of each state
-    max_input : array_like, shape (m,) — largest acceptable value of each input
-
-    Returns
-    -------
-    Q : ndarray, shape (n, n)
-    R : ndarray, shape (m, m)
-    """
-    xs = np.atleast_1d(np.asarray(max_state, dtype=np.float64))
-    us = np.atleast_1d(np.asarray(max_input, dtype=np.float64))
-    return np.diag(1.0 / xs**2), np.diag(1.0 / us**2)
-
-
-def dlqr(
-    a: np.ndarray, b: np.ndarray, q: np.ndarray, r: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """Infinite-horizon discrete LQR: the gain minimising sum x'Qx + u'Ru, u = -K x.
-
-    Solves the discrete algebraic Riccati equation with
-    :func:`scipy.linalg.solve_discrete_are` and forms ``K = (R + B'PB)^-1 B'PA``.
-
-    Parameters
-    ----------
-    a : ndarray, shape (n, n)
-    b : ndarray, shape (n, m)
-    q : ndarray, shape (n, n)
-    r : ndarray, shape (m, m)
-
-    Returns
-    -------
-    K : ndarray, shape (m, n)
-    P : ndarray, shape (n, n) — the Riccati solution
-    """
-    a = np.atleast_2d(np.asarray(a, dtype=np.float64))
-    b = np.asarray(b, dtype=np.float64).reshape(a.shape[0], -1)
-    q = np.atleast_2d(np.asarray(q, dtype=np.float64))
-    r = np.atleast_2d(np.asarray(r, dtype=np.float64))
-    p = scipy.linalg.solve_discrete_are(a, b, q, r)
-    k = np.linalg.solve(r + b.T @ p @ b, b.T @ p @ a)
-    return k, p
-
-
-def velocity_lqr(
-    kV: np.ndarray | float,
-    kA: np.ndarray | float,
-    dt: float,
-    *,
-    max_error: np.ndarray | float,
-    max_effort: np.ndarray | float,
-) -> np.ndarray:
-    """Proportional wheel-speed gain from discrete LQR on the first-order velocity model.
-
-    Model ``dw/dt = A w + B u`` with ``A = -kV / kA``, ``B = 1 / kA`` (u in volts),
-    discretised exactly (:func:`discretise_first_order`); weights by Bryson's rule,
-    ``Q = 1 / max_error^2``, ``R = 1 / max_effort^2``.
-
-    Parameters
-    ----------
-    kV, kA : float or ndarray, shape (W,)
-    dt : float — control period [s]
-    max_error : float or ndarray (W,) — speed error worth full effort [rad/s]
-    max_effort : float or ndarray (W,) — [V]
-
-    Returns
-    -------
-    ndarray, shape (W,) (the broadcast shape of the inputs, at least 1-D) — kP [V s/rad]
-    """
-    kv, ka, em, um = np.broadcast_arrays(
-        *(np.atleast_1d(np.asarray(x, dtype=np.float64)) for x in (kV, kA, max_error, max_effort))
-    )
-    out = np.empty(kv.shape)
-    for j in np.ndindex(kv.shape):
-        ad, bd = discretise_first_order(kv[j], ka[j], dt)
-        q, r = bryson(em[j], um[j])
-        out[j] = dlqr(np.array([[ad]]), np.array([[bd]]), q, r)[0][0, 0]
-    return out
-
-
-def simc_integral_gain(
-    kP: np.ndarray | float, kV: np.ndarray | float, kA: np.ndarray | float, dt: float
-) -> np.ndarray:
-    """Integral gain by Skogestad's SIMC rule for the integral time.
-
-    Skogestad, *Simple analytic rules for model reduction and PID controller tuning*,
-    J. Process Control 13 (2003), eq. (22): ``tau_I = min(tau_1, 4 (tau_c + theta))``, here
-    with the plant time constant ``tau_1 = kA / kV``, no dead time, and ``tau_c`` the
-    closed-loop time constant the gain kP gives on the discretised model.
-
-    Parameters
-    ----------
-    kP, kV, kA : float or ndarray, shape (W,)
-    dt : float — [s]
-
-    Returns
-    -------
-    ndarray, shape (W,) — kI = kP / tau_I [V/rad]
-    """
-    kp, kv, ka = np.broadcast_arrays(
-        *(np.atleast_1d(np.asarray(x, dtype=np.float64)) for x in (kP, kV, kA))
-    )
-    ad = np.exp(-kv / ka * dt)
-    pole = ad - (1.0 - ad) / kv * kp
-    # a pole at or below zero settles within about one tick
-    tau_c = np.where(pole > 0.0, -dt / np.log(np.clip(pole, 1e-300, 1.0 - 1e-15)), dt)
-    tau_i = np.minimum(ka / kv, 4.0 * tau_c)
-    return kp / tau_i
 
 
 # ---------------------------------------------------------------- the loop
@@ -494,10 +333,9 @@ class WheelController:
             ks, kv, ka = np.broadcast_arrays(
                 *(np.asarray(p[k], dtype=np.float64) for k in ("kS", "kV", "kA"))
             )
-            max_error = p["max_error"]
-            if max_error is None:
-                max_error = 0.2 * (self.voltage - ks) / kv
-            max_effort = self.voltage if p["max_effort"] is None else p["max_effort"]
+            max_error, max_effort = wheel_loop_weights(
+                ks, kv, self.voltage, max_error=p["max_error"], max_effort=p["max_effort"]
+            )
             if p["kP"] is None:
                 p["kP"] = velocity_lqr(kv, ka, self.dt, max_error=max_error, max_effort=max_effort)
             if p["kI"] is None:

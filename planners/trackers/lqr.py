@@ -7,7 +7,7 @@ from typing import ClassVar
 import numpy as np
 from numba import njit
 
-from planners.control import bryson, discretise, dlqr
+from planners.gains import bryson, discretise, dlqr
 from planners.params import Param
 from planners.plan import Plan
 from planners.se2 import wrap_one
@@ -66,7 +66,7 @@ class LQR(TrackerBase):
     overview* (2001), linear tracking design.
 
     The error model of :func:`error_model` is discretised exactly at the plan's period
-    (zero-order hold) and the DARE is solved (:func:`planners.control.dlqr`) on a grid of
+    (zero-order hold) and the DARE is solved (:func:`planners.gains.dlqr`) on a grid of
     design speeds ``+-linspace(min_speed, max plan speed, schedule_points)``, with Bryson's
     weights from the ``max_*`` keys. Each tick the gain is interpolated linearly in the plan
     speed at ``t``; between ``-min_speed`` and ``+min_speed`` (where the lateral error is not

@@ -15,7 +15,7 @@ import pytest
 import scipy.linalg
 import scipy.signal
 
-from planners.control import bryson, discretise, discretise_first_order, dlqr, velocity_lqr
+from planners.gains import bryson, discretise, discretise_first_order, dlqr, velocity_lqr
 from planners.trackers import make_tracker
 from planners.trackers.lqr import error_model
 from tests.planners.plan_fixtures import figure_eight_plan

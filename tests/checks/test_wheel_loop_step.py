@@ -19,7 +19,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from planners.control import WheelController, discretise_first_order, feedforward_from_motor
+from planners.control import WheelController, feedforward_from_motor
+from planners.gains import discretise_first_order
 
 DT = 0.005
 VOLTAGE = 12.0

@@ -5,12 +5,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from planners.control import (
-    WheelController,
+from planners.control import WheelController, feedforward_from_motor
+from planners.gains import (
     bryson,
     discretise,
     discretise_first_order,
-    feedforward_from_motor,
     simc_integral_gain,
     velocity_lqr,
 )
