@@ -95,6 +95,7 @@ class RobotLog:
         (``position_left`` [rad], ``velocity_fl`` [rad/s], ``yaw`` [rad], ``pod_0`` [m], ...)
     meta : dict of str -> str — the ``# key = value`` lines
     rows : ndarray of int, shape (T,) — file line number of each sample (for messages)
+    header_row : int or None — file line number of the header (for missing-column messages)
     """
 
     source: str
@@ -103,6 +104,10 @@ class RobotLog:
     columns: dict[str, np.ndarray]
     meta: dict[str, str] = field(default_factory=dict)
     rows: np.ndarray | None = None
+    header_row: int | None = None
+
+    def _where(self) -> str:
+        return f"{self.source}: line {self.header_row} (header)" if self.header_row else self.source
 
     def has(self, name: str) -> bool:
         """Whether column ``name`` is in the log."""
@@ -112,7 +117,7 @@ class RobotLog:
         """Column ``name`` (SI units), shape (T,); a one-line error when it is missing."""
         if name not in self.columns:
             raise LogError(
-                f"{self.source}: needs column {name!r}, has {', '.join(sorted(self.columns))}"
+                f"{self._where()}: needs column {name!r}, has {', '.join(sorted(self.columns))}"
                 f"{did_you_mean(name, self.columns)}"
             )
         return self.columns[name]
@@ -127,7 +132,7 @@ class RobotLog:
                 out.append(self.columns[f"duty_{w}"] * self.columns["battery"])
             else:
                 raise LogError(
-                    f"{self.source}: wheel {w!r} needs column 'voltage_{w} [V]', or 'duty_{w} [1]' "
+                    f"{self._where()}: wheel {w!r} needs column 'voltage_{w} [V]', or 'duty_{w} [1]' "
                     "together with 'battery [V]'"
                 )
         return np.stack(out, axis=1)
@@ -135,6 +140,13 @@ class RobotLog:
     def wheel_position(self) -> np.ndarray:
         """Wheel shaft angle per wheel label, shape (T, W) [rad]."""
         return np.stack([self.column(f"position_{w}") for w in self.wheels], axis=1)
+
+    def wheel_velocity(self) -> np.ndarray | None:
+        """Logged wheel shaft speed per wheel label, shape (T, W) [rad/s], or None when any
+        wheel lacks a ``velocity_<w>`` column."""
+        if not self.wheels or not all(self.has(f"velocity_{w}") for w in self.wheels):
+            return None
+        return np.stack([self.columns[f"velocity_{w}"] for w in self.wheels], axis=1)
 
     def pods(self) -> np.ndarray:
         """Tracking-wheel travel, shape (T, P) [m], pods in index order."""
@@ -263,6 +275,7 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
         raise LogError(f"{source}: cannot read log ({exc.strerror})") from None
     meta: dict[str, str] = {}
     header = None
+    header_row = None
     data: list[list[str]] = []
     rows: list[int] = []
     for line_no, cells in enumerate(csv.reader(text.splitlines()), start=1):
@@ -275,6 +288,7 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
             continue
         if header is None:
             header = _parse_header(source, line_no, cells)
+            header_row = line_no
             continue
         if len(cells) != len(header):
             raise LogError(f"{source}: row {line_no} has {len(cells)} cells, the header has {len(header)}")
@@ -323,7 +337,7 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
     labels = {h[2] for h in header if h[2] is not None}
     return RobotLog(
         source=source, t=t, wheels=_wheel_labels(source, labels), columns=columns, meta=meta,
-        rows=np.asarray(rows, dtype=np.int64),
+        rows=np.asarray(rows, dtype=np.int64), header_row=header_row,
     )
 
 
