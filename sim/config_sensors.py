@@ -22,7 +22,13 @@ def _p(dimension: str, default: object = REQUIRED, doc: str = "", **kw) -> dict:
 
 @dataclass(frozen=True)
 class Encoders:
-    """Drive-wheel encoders: one per drive wheel, counting wheel spin (slip included)."""
+    """Drive-wheel encoders: one per drive wheel, counting wheel spin (slip included).
+
+    ``radius_scale`` and ``track_scale`` model a miscalibrated robot (the systematic errors
+    of the UMBmark test): the physics and the counts follow ``[robot]``, while dead reckoning
+    from these encoders assumes wheel radii ``robot.wheel_radius * radius_scale`` (left,
+    right) and track ``robot.track * track_scale``. Wheel-speed control keeps ``[robot]``.
+    """
 
     counts_per_rev: float = field(
         metadata=_p("dimensionless", gt=0.0, doc="counts per wheel revolution (after the gearbox)")
@@ -33,6 +39,21 @@ class Encoders:
     )
     quantise: bool = field(
         default=True, metadata=_p("bool", True, "report whole counts (false: exact fractional counts)")
+    )
+    radius_scale: tuple[float, float] = field(
+        default=(1.0, 1.0),
+        metadata=_p(
+            "dimensionless", (1.0, 1.0),
+            "wheel radius the encoder odometry assumes, left and right, / robot.wheel_radius",
+            shape=2, gt=0.5, lt=2.0,
+        ),
+    )
+    track_scale: float = field(
+        default=1.0,
+        metadata=_p(
+            "dimensionless", 1.0, "track the encoder odometry assumes / robot.track (skid, differential)",
+            gt=0.5, lt=2.0,
+        ),
     )
 
 

@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from planners.odometry import Odometry
+from planners.odometry_geometry import assumed_forward_matrix
 from planners.se2 import wrap
 from sim.runner import Simulation
 from sim.scenario import Scenario
@@ -31,7 +32,10 @@ def odometry_sources(sim: Simulation) -> dict[str, Odometry]:
     out: dict[str, Odometry] = {}
     if s.encoders is not None:
         for src in ("encoders", "encoders+imu") if s.imu is not None else ("encoders",):
-            out[src] = Odometry(source=src, forward=sim.geom.forward_matrix, counts_per_rev=s.encoders.counts_per_rev)
+            forward = assumed_forward_matrix(
+                sim.geom, radius_scale=s.encoders.radius_scale, track_scale=s.encoders.track_scale
+            )
+            out[src] = Odometry(source=src, forward=forward, counts_per_rev=s.encoders.counts_per_rev)
     if len(s.pods) >= 2:
         at = np.array([p.at for p in s.pods])
         kw = dict(

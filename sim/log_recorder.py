@@ -107,6 +107,11 @@ class LogRecorder:
             meta["counts_per_rev"] = f"{sc.sensors.encoders.counts_per_rev:g}"
         r = sc.robot
         meta.update(wheel_radius=f"{r.wheel_radius:g}", track=f"{r.track:g}", wheelbase=f"{r.wheelbase:g}")
+        enc = sc.sensors.encoders
+        if enc is not None and (tuple(enc.radius_scale), enc.track_scale) != ((1.0, 1.0), 1.0):
+            # the geometry the robot's odometry assumes (planners.odometry_geometry)
+            meta.update(radius_scale=", ".join(f"{v:.9g}" for v in enc.radius_scale),
+                        track_scale=f"{enc.track_scale:.9g}")
         if sc.sensors.imu is not None:
             meta["gyro_rate_noise"] = f"{sc.sensors.imu.rate_noise:g}"
         if sc.sensors.fixes is not None:

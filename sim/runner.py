@@ -17,6 +17,7 @@ import numpy as np
 from planners.control import WheelController, feedforward_from_motor
 from planners.estimators import ESTIMATORS
 from planners.odometry import Odometry
+from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
 from planners.se2 import wrap
@@ -93,9 +94,10 @@ class Simulation:
         self.estimator.reset(pose0, n, rngs=[np.random.default_rng(s[_ESTIMATOR]) for s in streams])
         self.odometry = None
         if sc.sensors.encoders is not None:
+            enc = sc.sensors.encoders
             self.odometry = Odometry(
-                source="encoders", forward=self.geom.forward_matrix,
-                counts_per_rev=sc.sensors.encoders.counts_per_rev,
+                source="encoders", counts_per_rev=enc.counts_per_rev,
+                forward=assumed_forward_matrix(self.geom, radius_scale=enc.radius_scale, track_scale=enc.track_scale),
             )
             self.odometry.reset(pose0)
         self.tracker = TRACKERS.get(sc.tracker.kind)(chassis=robot.chassis, **sc.tracker.params)

@@ -13,6 +13,7 @@ import numpy as np
 
 from planners.errors import ScenarioError
 from planners.odometry import SOURCES, Odometry
+from planners.odometry_geometry import assumed_forward_matrix
 from planners.params import Param
 
 SOURCE_PARAM = Param(
@@ -39,7 +40,11 @@ def make_odometry(context: dict[str, Any], source: str, *, where: str) -> Odomet
                 f"{where}: sensors.encoders must be present for source {source!r}, got None"
             )
         odo_args: dict[str, Any] = dict(
-            forward=geometry.forward_matrix, counts_per_rev=enc.counts_per_rev
+            forward=assumed_forward_matrix(
+                geometry, radius_scale=getattr(enc, "radius_scale", (1.0, 1.0)),
+                track_scale=getattr(enc, "track_scale", 1.0),
+            ),
+            counts_per_rev=enc.counts_per_rev,
         )
     else:
         pods = tuple(getattr(sensors, "pods", ()) or ())
