@@ -8,10 +8,16 @@ moves the pose, ``x' = x * u``. Linearised (Thrun, Burgard, Fox, *Probabilistic 
     F_x = [[1, 0, -s ux - c uy], [0, 1, c ux - s uy], [0, 0, 1]],  F_u = R(theta) (+) 1
     P'  = F_x P F_x' + F_u Q_u F_u'
 
-with body-frame increment noise ``Q_u = diag(vd + f_xy^2, vd + f_xy^2, vt + f_h^2)``: variances
-that grow in proportion to the distance ``d = |(ux, uy)|`` and turn, ``vd = distance_noise^2 d``,
-``vt = turn_noise^2 |utheta| + drift_noise^2 d`` (so the spread after a drive does not depend
-on the tick rate; ``f`` are per-tick floors).
+with body-frame increment noise ``Q_u = diag(vd + f_xy^2, vl + f_xy^2, vt + f_h^2)``: variances
+that grow in proportion to the distance ``d = |(ux, uy)|`` and turn, ``vd = distance_noise^2 d``
+along the body x axis, ``vl = lateral_noise^2 d`` across it (a skid or differential chassis
+barely slides sideways, a mecanum one does), and ``vt = turn_noise^2 |utheta| + drift_noise^2 d``
+(so the spread after a drive does not depend on the tick rate; ``f`` are per-tick floors).
+With an ``"+imu"`` source the heading increment is the integrated gyro, not the wheels, so
+wheel drift does not enter it: ``vt = N^2 T + turn_noise^2 |utheta|`` with the gyro's white
+rate noise density ``N`` (``sensors.imu.rate_noise``; angle random walk, IEEE Std 952-1997)
+over the tick ``T``, and ``turn_noise`` standing for the gyro's scale uncertainty. The bias
+walk is not modelled (its heading error grows as ``t^(3/2)`` and the fixes bound it).
 
 Fixes ``z = x + v`` (``H = I``) describe the pose at ``fix_time``. With ``latency = "replay"``
 the filter keeps the last ``history`` seconds of states and increments, applies the fix to
@@ -92,7 +98,8 @@ class PoseEKF:
     source : odometry source of the increments ("+imu" folds the gyro into the heading)
     distance_noise : float — position std after 1 m driven [m/sqrt(m)]
     turn_noise : float — heading std after 1 rad turned [rad/sqrt(rad)]
-    drift_noise : float — heading std after 1 m driven [rad/sqrt(m)]
+    drift_noise : float — heading std after 1 m driven [rad/sqrt(m)] (wheel heading only)
+    lateral_noise : float or None — sideways position std after 1 m [m/sqrt(m)]
     floor_xy, floor_heading : float — per-tick noise floor [m], [rad]
     gate : float — chi-square threshold of a fix (3 dof; 11.34 is the 99 % quantile)
     latency : {"replay", "ignore"} — re-apply increments after a late fix, or not
@@ -112,6 +119,10 @@ class PoseEKF:
         "drift_noise": Param(
             "dimensionless", 0.02, "heading std after 1 m driven [rad/sqrt(m)]", ge=0.0
         ),
+        "lateral_noise": Param(
+            "dimensionless", None,
+            "sideways position std after 1 m driven [m/sqrt(m)] (default: distance_noise)", ge=0.0,
+        ),
         "floor_xy": Param("length", 1e-4, "per-tick position noise floor", ge=0.0),
         "floor_heading": Param("angle", 1e-4, "per-tick heading noise floor", ge=0.0),
         "gate": Param("dimensionless", 11.34, "chi-square gate of a fix (3 dof)", gt=0.0),
@@ -130,6 +141,14 @@ class PoseEKF:
         self._context = context
         self._odo = make_odometry(context, p["source"], where="estimator.ekf")
         self.noise = (float(p["distance_noise"]), float(p["turn_noise"]), float(p["drift_noise"]))
+        lateral = p["lateral_noise"]
+        self.lateral = self.noise[0] if lateral is None else float(lateral)
+        imu = getattr(context.get("sensors"), "imu", None)
+        # white gyro noise integrated over one tick: N^2 T (IEEE Std 952-1997 angle random walk)
+        self.gyro_var = (
+            float(getattr(imu, "rate_noise", 0.0)) ** 2 * float(context["dt"])
+            if p["source"].endswith("+imu") else None
+        )
         self.floor = (float(p["floor_xy"]) ** 2, float(p["floor_heading"]) ** 2)
         self.gate = float(p["gate"])
         self.latency = p["latency"]
@@ -160,8 +179,12 @@ class PoseEKF:
         kd, kt, kh = self.noise
         d = np.hypot(step[:, 0], step[:, 1])
         sd2 = kd * kd * d + self.floor[0]
-        st2 = kt * kt * np.abs(step[:, 2]) + kh * kh * d + self.floor[1]
-        return np.column_stack([sd2, sd2, st2])
+        sl2 = self.lateral * self.lateral * d + self.floor[0]
+        if self.gyro_var is None:
+            st2 = kt * kt * np.abs(step[:, 2]) + kh * kh * d + self.floor[1]
+        else:
+            st2 = self.gyro_var + kt * kt * np.abs(step[:, 2]) + self.floor[1]
+        return np.column_stack([sd2, sl2, st2])
 
     def update(self, t: float, readings: Readings) -> np.ndarray:
         """Pose estimate (N, 3), field frame; :attr:`covariance` follows."""

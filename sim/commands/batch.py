@@ -9,7 +9,7 @@ from sim.commands import add_set_option
 #: figure -> column label of the terminal table
 TABLE_KEYS = {
     "cross_track_p95_m": "xtrack p95", "cross_track_max_m": "xtrack max", "end_position_error_m": "end pos",
-    "end_heading_error_rad": "end hdg", "duration_s": "time",
+    "end_heading_error_rad": "end hdg", "estimate_error_rms_m": "est rms", "duration_s": "time",
 }
 
 
