@@ -26,6 +26,7 @@ corner instead: the mecanum robot stops there and sets off in the next leg's dir
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 from typing import NamedTuple
@@ -83,6 +84,7 @@ class Route:
     max_jerk : float or None — [m/s^3]
     max_turn_rate : float or None — [rad/s]
     wheel_speed_margin : float — fraction of the wheel's free speed the plan may use
+    speed_scale : float — time scaling of the route's limits (see :meth:`Route.scaled`)
     waypoints : tuple of Waypoint
     """
 
@@ -126,9 +128,42 @@ class Route:
             doc="fraction of the wheels' free speed the plan may ask for",
         ),
     )
+    speed_scale: float = field(
+        default=1.0,
+        metadata=_p(
+            dimension="dimensionless", default=1.0, gt=0.0, le=5.0,
+            doc="drive the route this many times faster: speeds x c, accelerations x c^2, jerk x c^3",
+        ),
+    )
     waypoints: tuple[Waypoint, ...] = field(
         default=(), metadata=_p(dimension="tables", default=(), doc="the points to drive")
     )
+
+    def scaled(self) -> Route:
+        """This route with ``speed_scale`` folded into its limits (``speed_scale`` 1 after).
+
+        Time scaling of a trajectory by ``c`` (Hollerbach, "Dynamic scaling of manipulator
+        trajectories", 1984): the same path driven ``c`` times faster needs speeds and turn
+        rates times ``c``, accelerations times ``c^2`` and jerk times ``c^3``. Dwells keep
+        their length. The wheels' free speed (a property of the motor) is not scaled, so above
+        ``c = 1`` it may bind where it did not.
+        """
+        c = self.speed_scale
+        if c == 1.0:
+            return self
+
+        def times(v: float | None, k: float) -> float | None:
+            return None if v is None else v * k
+
+        waypoints = tuple(
+            dataclasses.replace(w, speed=times(w.speed, c)) for w in self.waypoints
+        )
+        return dataclasses.replace(
+            self, max_speed=self.max_speed * c, max_accel=self.max_accel * c * c,
+            max_decel=times(self.max_decel, c * c), max_lateral_accel=times(self.max_lateral_accel, c * c),
+            max_jerk=times(self.max_jerk, c ** 3), max_turn_rate=times(self.max_turn_rate, c),
+            speed_scale=1.0, waypoints=waypoints,
+        )
 
     @property
     def decel(self) -> float:

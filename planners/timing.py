@@ -168,6 +168,7 @@ def time_route(
                         "together, got only one")
     if max_wheel_speed is not None and not max_wheel_speed > 0.0:
         raise PlanError(f"time_route: max_wheel_speed must be > 0, got {max_wheel_speed!r}")
+    route = route.scaled()  # route.speed_scale: the same route, time-scaled
     rp = route_path(route, chassis=chassis)
     s = rp.path.grid(grid_step)
     mid = 0.5 * (s[1:] + s[:-1])

@@ -1,0 +1,45 @@
+"""Tune benchmark: 30 candidates x 100 runs of a ~15 s route on a process pool (target < 5 min on 2 cores)."""
+
+from __future__ import annotations
+
+import os
+import time
+
+from sim.scenario import bundled_dir
+
+#: pure pursuit on the loading-dock S-bend (15.5 s plan), mass varied per run
+OVERRIDES = ('tracker.kind="pure-pursuit"', 'run.vary.mass="5 %"')
+
+
+def bench_tune(*, candidates: int = 30, runs: int = 100, workers: int | None = None, quick: bool = False) -> dict:
+    """Wall time of ``skidpad tune`` of ``tracker.lookahead`` on scenarios/aisle-s-skid.toml.
+
+    Parameters
+    ----------
+    candidates : budget (candidates evaluated)
+    runs : runs per candidate
+    workers : worker processes (default: the machine's cores, at most 2 as in the target)
+    quick : 10 candidates x 20 runs
+
+    Returns
+    -------
+    dict with tune_<K>x<N>_wall_s [s], tune_s_per_candidate [s], tune_workers,
+    tune_candidates_evaluated and tune_target_5min_met (only meaningful for the full size)
+    """
+    from sim.tune import tune
+
+    if quick:
+        candidates, runs = 10, 20
+    workers = workers or min(2, os.cpu_count() or 1)
+    path = str(bundled_dir("scenarios") / "aisle-s-skid.toml")
+    start = time.perf_counter()
+    out = tune(path, ["tracker.lookahead=0.1m..0.6m"], runs=runs, objective="cross_track_p95",
+               budget=candidates, overrides=OVERRIDES, workers=workers)
+    wall = time.perf_counter() - start
+    return {
+        f"tune_{candidates}x{runs}_wall_s": wall,
+        "tune_s_per_candidate": wall / max(1, len(out.candidates)),
+        "tune_workers": workers,
+        "tune_candidates_evaluated": len(out.candidates),
+        "tune_target_5min_met": bool(wall < 300.0) if not quick else "n/a (quick)",
+    }
