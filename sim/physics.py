@@ -22,7 +22,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 from planners.se2 import compose_one, exp_one
 from sim.contact import contact_forces
@@ -185,21 +185,6 @@ def step_kernel(
     counters columns: 0 contact count, 1 diverged flag.
     """
     for i in range(wspeed.shape[0]):
-        _step_robot(
-            i, pose, vel, wspeed, wangle, current, vbatt, slip, wforce, state_f, counters,
-    duty, params, wheel_xy, grip, loads, segs, seg_free_left,
-    patches, patch_counts, patch_scale, floor_scale, h, steps,
-        )
-
-
-@njit(cache=True, parallel=True)
-def step_kernel_parallel(
-    pose, vel, wspeed, wangle, current, vbatt, slip, wforce, state_f, counters,
-    duty, params, wheel_xy, grip, loads, segs, seg_free_left,
-    patches, patch_counts, patch_scale, floor_scale, h, steps,
-):
-    """:func:`step_kernel` with the robots spread over threads (each robot only writes its own rows)."""
-    for i in prange(wspeed.shape[0]):
         _step_robot(
             i, pose, vel, wspeed, wangle, current, vbatt, slip, wforce, state_f, counters,
     duty, params, wheel_xy, grip, loads, segs, seg_free_left,

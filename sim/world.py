@@ -6,7 +6,6 @@ import dataclasses
 import math
 from collections.abc import Mapping
 
-import numba
 import numpy as np
 
 from planners.errors import ScenarioError
@@ -14,12 +13,8 @@ from planners.kinematics import ChassisGeometry
 from sim.config_robot import Robot
 from sim.field import Field
 from sim.motors import motor_constants
-from sim.physics import COLUMNS, G0, step_kernel, step_kernel_parallel
+from sim.physics import COLUMNS, G0, step_kernel
 from sim.contact import DAMPING_RATIO, STIFFNESS
-
-#: batches at least this large spread the physics over numba's threads (below it the thread
-#: start-up costs more than it saves; measured with `skidpad bench physics`)
-PARALLEL_MIN = 64
 
 
 def _replace(robot: Robot, key: str, value: float) -> Robot:
@@ -245,8 +240,7 @@ class World:
             raise ValueError(f"duty must have shape ({self.n}, {self.geom.wheels}), got {d.shape}")
         steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
         h = dt / steps
-        kernel = step_kernel_parallel if self.n >= PARALLEL_MIN and numba.get_num_threads() > 1 else step_kernel
-        kernel(
+        step_kernel(
             self.pose, self.velocity, self.wheel_speed, self.wheel_angle, self.motor_current,
             self.battery_voltage, self.slip, self.wheel_force, self._state_f, self._counters,
             np.ascontiguousarray(d), self.params, self.wheel_xy, self.grip, self.loads,

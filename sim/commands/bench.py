@@ -1,4 +1,4 @@
-"""``skidpad bench [WHAT...]``: speed figures (physics, sensors, loop, batch, viewer)."""
+"""``skidpad bench [WHAT...]``: speed figures (physics, sensors, loop, estimators, batch, viewer)."""
 
 from __future__ import annotations
 
@@ -12,7 +12,9 @@ SUITES = {
     "physics": ("sim.bench_physics", "bench_physics"),
     "sensors": ("sim.bench_sensors", "bench_sensors"),
     "loop": ("sim.bench_loop", "bench_loop"),
+    "estimators": ("sim.bench_estimators", "bench_estimators"),
     "batch": ("sim.bench_batch", "bench_batch"),
+    "tune": ("sim.bench_tune", "bench_tune"),
     "viewer": ("sim.viewer.bench", "bench_viewer"),
 }
 
