@@ -18,6 +18,14 @@ EXECUTORS = ("serial", "processes", "dask")
 Outcome = tuple[object, "list[dict] | None", "BaseException | None"]
 
 
+def single_threaded() -> None:
+    """Worker initialiser: one numba thread per process, so a pool of J processes does not
+    start J x cores threads."""
+    import numba
+
+    numba.set_num_threads(1)
+
+
 def run_serial(units: Sequence, work: Callable) -> Iterator[Outcome]:
     """Run units one after another in this process."""
     for u in units:
@@ -32,7 +40,9 @@ def run_serial(units: Sequence, work: Callable) -> Iterator[Outcome]:
 def run_processes(units: Sequence, work: Callable, *, jobs: int) -> Iterator[Outcome]:
     """Run units on ``jobs`` worker processes (forkserver where available, else spawn)."""
     method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
-    pool = ProcessPoolExecutor(max_workers=jobs, mp_context=multiprocessing.get_context(method))
+    pool = ProcessPoolExecutor(
+        max_workers=jobs, mp_context=multiprocessing.get_context(method), initializer=single_threaded
+    )
     try:
         pending = {pool.submit(work, u): u for u in units}
         while pending:

@@ -49,7 +49,7 @@ class Battery:
 class Traction:
     """Wheel-ground force model.
 
-    ``coulomb``: force = mu * load * tanh(slip speed / slip_speed) along each resisting
+    ``coulomb``: force = mu * load * sat(slip speed / slip_speed) along each resisting
     direction. ``magic-formula``: Pacejka's D sin(C atan(B k - E (B k - atan(B k)))) on the
     slip ratio k, with D = mu * load.
     """
@@ -60,7 +60,7 @@ class Traction:
     )
     mu: float = field(default=0.9, metadata=_p("dimensionless", 0.9, "friction coefficient", gt=0.0, le=3.0))
     slip_speed: float = field(
-        default=0.05, metadata=_p("speed", 0.05, "coulomb: slip speed where force reaches 76% of mu*load", gt=0.0)
+        default=0.05, metadata=_p("speed", 0.05, "coulomb: slip speed where force reaches 78% of mu*load (all of it at 3x)", gt=0.0)
     )
     b: float = field(default=10.0, metadata=_p("dimensionless", 10.0, "magic formula stiffness B", gt=0.0))
     c: float = field(default=1.9, metadata=_p("dimensionless", 1.9, "magic formula shape C", gt=0.0, lt=2.0))

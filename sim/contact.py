@@ -3,7 +3,8 @@
 Two cases are checked each sub-step: a footprint corner on the wrong side of a wall segment,
 and a wall vertex (a pillar's corner) inside the footprint. Each contributes a spring-damper
 normal force (stiffness :data:`STIFFNESS`, damping :data:`DAMPING_RATIO` of critical for the
-robot's mass) and Coulomb friction along the wall (:data:`WALL_MU`). The penetration that
+robot's mass) and Coulomb friction along the wall (:data:`WALL_MU`, regularised over 2 cm/s by
+:func:`sim.traction.saturate`). The penetration that
 results is a few millimetres at full drive force, so a robot pushing a wall stalls at its
 current limit instead of tunnelling.
 """
@@ -14,32 +15,33 @@ import math
 
 from numba import njit
 
+from sim.traction import saturate
+
 STIFFNESS = 4.0e4  # N/m
 DAMPING_RATIO = 0.7
 WALL_MU = 0.3
 _MAX_DEPTH = 0.15  # m: deeper crossings belong to the far side of a wall, not a contact
 
 
-@njit(cache=True)
-def contact_forces(x, y, h, vx, vy, om, half_len, half_wid, mass, segs, free_left):
+@njit(cache=True, inline="always")
+def contact_forces(x, y, c, s, vx, vy, om, half_len, half_wid, mass, segs):
     """Total contact force (body frame), moment and deepest penetration of one robot.
 
     Parameters
     ----------
-    x, y, h : float — pose, field frame
+    x, y : float — position, field frame
+    c, s : float — cosine and sine of the heading
     vx, vy, om : float — body velocity
     half_len, half_wid : float — half the footprint [m]
     mass : float — [kg], for the damping
-    segs : ndarray (S, 4) — wall segments x0, y0, x1, y1
-    free_left : ndarray (S,) — 1 where the free floor is left of the segment direction
+    segs : ndarray (S, 5) — wall segments x0, y0, x1, y1 and 1 where the free floor lies
+        left of the segment's direction, else 0
 
     Returns
     -------
     fx, fy, mz : float — body-frame force [N] and moment [N m]
     depth : float — deepest penetration [m] (0 when clear)
     """
-    c = math.cos(h)
-    s = math.sin(h)
     damp = 2.0 * DAMPING_RATIO * math.sqrt(STIFFNESS * mass)
     fx = 0.0
     fy = 0.0
@@ -63,10 +65,11 @@ def contact_forces(x, y, h, vx, vy, om, half_len, half_wid, mass, segs, free_lef
             if u < 0.0 or u > 1.0:
                 continue
             d = (ex * (py - ay) - ey * (px - ax)) / ll  # > 0 left of the segment
-            depth = -d if free_left[j] else d
+            free_left = segs[j, 4] > 0.5
+            depth = -d if free_left else d
             if 0.0 < depth < _MAX_DEPTH and depth > best:
                 best = depth
-                sign = 1.0 if free_left[j] else -1.0
+                sign = 1.0 if free_left else -1.0
                 nx = -ey / ll * sign
                 ny = ex / ll * sign
         if best > 0.0:
@@ -81,7 +84,7 @@ def contact_forces(x, y, h, vx, vy, om, half_len, half_wid, mass, segs, free_lef
                 fn = 0.0
             tx, ty = -ny, nx
             vt = wx * tx + wy * ty
-            ft = -WALL_MU * fn * math.tanh(vt / 0.02)
+            ft = -WALL_MU * fn * saturate(vt / 0.02)[0]
             gx = fn * nx + ft * tx
             gy = fn * ny + ft * ty
             lx = c * gx + s * gy
@@ -117,7 +120,7 @@ def contact_forces(x, y, h, vx, vy, om, half_len, half_wid, mass, segs, free_lef
             if fn < 0.0:
                 fn = 0.0
             vt = -vpx * nby + vpy * nbx
-            ft = -WALL_MU * fn * math.tanh(vt / 0.02)
+            ft = -WALL_MU * fn * saturate(vt / 0.02)[0]
             lx = fn * nbx - ft * nby
             ly = fn * nby + ft * nbx
             fx += lx

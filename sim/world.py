@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import threading
 from collections.abc import Mapping
+
+import numba
 
 import numpy as np
 
@@ -13,7 +16,7 @@ from planners.kinematics import ChassisGeometry
 from sim.config_robot import Robot
 from sim.field import Field
 from sim.motors import motor_constants
-from sim.physics import COLUMNS, G0, step_kernel
+from sim.physics import COLUMNS, G0, ROBOT_ROWS, WHEEL_ROWS, step_kernel, step_kernel_parallel
 from sim.contact import DAMPING_RATIO, STIFFNESS
 
 
@@ -55,6 +58,8 @@ def robot_row(robot: Robot) -> np.ndarray:
         "mf_e": tr.e,
         "half_length": robot.footprint[0] / 2.0,
         "half_width": robot.footprint[1] / 2.0,
+        "load_transfer": 1.0 if tr.load_transfer else 0.0,
+        "cg_height": tr.cg_height,
     }
     return np.array([values[c] for c in COLUMNS])
 
@@ -89,20 +94,34 @@ def grip_directions(geom: ChassisGeometry) -> np.ndarray:
     return np.tile([1.0, 0.0, 1.0], (geom.wheels, 1))
 
 
-def _oriented_segments(field: Field | None) -> tuple[np.ndarray, np.ndarray]:
+def _oriented_segments(field: Field | None) -> np.ndarray:
+    """Wall segments (S, 5): x0, y0, x1, y1, and 1 where the floor lies left of the segment."""
     if field is None:
-        return np.zeros((0, 4)), np.zeros(0, dtype=np.bool_)
+        return np.zeros((0, 5))
     segs = []
-    free_left = []
     for ring, is_boundary in [(field.boundary, True)] + [(o, False) for o in field.obstacles]:
         r = np.asarray(ring, dtype=np.float64)
         area = 0.5 * np.sum(r[:, 0] * np.roll(r[:, 1], -1) - np.roll(r[:, 0], -1) * r[:, 1])
         ccw = area > 0
-        seg = np.hstack([r, np.roll(r, -1, axis=0)])
-        segs.append(seg)
         # CCW boundary: the floor lies left of each edge; CCW obstacle: right of each edge
-        free_left.append(np.full(len(r), ccw == is_boundary))
-    return np.ascontiguousarray(np.vstack(segs)), np.concatenate(free_left)
+        free_left = np.full((len(r), 1), 1.0 if ccw == is_boundary else 0.0)
+        segs.append(np.hstack([r, np.roll(r, -1, axis=0), free_left]))
+    return np.ascontiguousarray(np.vstack(segs))
+
+
+def _packed_patches(field: Field | None) -> np.ndarray:
+    """Friction patches (P, 6 + 2 V): vertex count, friction scale, bounding box, vertices."""
+    patches = field.patches if field is not None else ()
+    vmax = max([len(p.polygon) for p in patches], default=0)
+    out = np.zeros((len(patches), 6 + 2 * vmax))
+    for q, p in enumerate(patches):
+        poly = np.asarray(p.polygon, dtype=np.float64)
+        out[q, 0] = len(poly)
+        out[q, 1] = p.friction_scale
+        out[q, 2:4] = poly.min(axis=0)
+        out[q, 4:6] = poly.max(axis=0)
+        out[q, 6 : 6 + 2 * len(poly)] = poly.ravel()
+    return out
 
 
 class World:
@@ -122,11 +141,18 @@ class World:
     ----------
     pose : (N, 3) field frame; velocity : (N, 3) body frame [vx, vy, omega];
     wheel_speed, wheel_angle : (N, W) [rad/s], [rad]; motor_current : (N, W) [A];
-    battery_voltage : (N,) [V]; slip : (N, W) slip speed [m/s];
-    wheel_force : (N, W, 2) floor force on each wheel, body frame [N];
-    contact_count : (N,) new contacts; in_contact : (N,) bool; peak_penetration : (N,) [m];
+    wheel_load : (N, W) normal load [N]; battery_voltage : (N,) [V]; slip : (N, W) slip
+    speed [m/s]; wheel_force : (N, W, 2) floor force on each wheel, body frame [N];
+    contact_count : (N,) contacts; in_contact : (N,) bool; peak_penetration : (N,) [m];
     slip_energy : (N,) [J]; diverged : (N,) bool; t : float [s]
+
+    The arrays are views of three state blocks (:mod:`sim.physics` gives the layout) that the
+    compiled kernel updates in place: read them, copy what must be kept.
     """
+
+    #: batches at least this large spread the physics over numba's threads (below it the
+    #: threads cost more than they save; measured with ``skidpad bench physics``)
+    PARALLEL_MIN = 64
 
     def __init__(
         self,
@@ -149,41 +175,34 @@ class World:
         for key, arr in params.items():
             if np.shape(arr) != (n,):
                 raise ScenarioError(f"world: params[{key!r}] must have shape ({n},), got {np.shape(arr)}")
-        rows, loads = [], []
+        rows = []
         for i in range(n):
             r = robot
             for key, arr in params.items():
                 r = _replace(r, key, float(arr[i]))
-            rows.append(robot_row(r))
-            loads.append(static_loads(r, self.geom))
-        self.params = np.ascontiguousarray(np.array(rows).reshape(n, len(COLUMNS)))
-        self.loads = np.ascontiguousarray(np.array(loads).reshape(n, w))
-        self.grip = np.ascontiguousarray(grip_directions(self.geom))
-        self.wheel_xy = np.ascontiguousarray(self.geom.wheel_positions)
-        self.segs, self.free_left = _oriented_segments(field)
-        self.floor_scale = field.friction_scale if field is not None else 1.0
-        patches = field.patches if field is not None else ()
-        kmax = max([len(p.polygon) for p in patches], default=1)
-        self.patch_poly = np.zeros((len(patches), kmax, 2))
-        self.patch_count = np.zeros(len(patches), dtype=np.int64)
-        self.patch_scale = np.ones(len(patches))
-        for q, p in enumerate(patches):
-            self.patch_poly[q, : len(p.polygon)] = p.polygon
-            self.patch_count[q] = len(p.polygon)
-            self.patch_scale[q] = p.friction_scale
+            rows.append(np.concatenate([robot_row(r), static_loads(r, self.geom)]))
+        self.params = np.ascontiguousarray(np.array(rows).reshape(n, len(COLUMNS) + w))
+        self.layout = np.ascontiguousarray(np.hstack([self.geom.wheel_positions, grip_directions(self.geom)]))
+        self.segs = _oriented_segments(field)
+        self.patches = _packed_patches(field)
+        self.floor_scale = float(field.friction_scale) if field is not None else 1.0
         self.substep, note = self.check_substep(robot, substep)
         self.notes = [note] if note else []
-        self.pose = np.zeros((n, 3)) if pose0 is None else np.array(pose0, dtype=np.float64).reshape(n, 3)
-        self.velocity = np.zeros((n, 3))
-        self.wheel_speed = np.zeros((n, w))
-        self.wheel_angle = np.zeros((n, w))
-        self.motor_current = np.zeros((n, w))
-        self.battery_voltage = self.params[:, COLUMNS.index("battery_voltage")].copy()
-        self.slip = np.zeros((n, w))
-        self.wheel_force = np.zeros((n, w, 2))
-        self._state_f = np.zeros((n, 3))
-        self._counters = np.zeros((n, 2), dtype=np.int64)
+        self._body = np.zeros((2, n, 3))
+        if pose0 is not None:
+            self._body[0] = np.asarray(pose0, dtype=np.float64).reshape(n, 3)
+        self._wheel = np.zeros((len(WHEEL_ROWS), n, w))
+        self._robot = np.zeros((len(ROBOT_ROWS), n))
+        self._robot[0] = self.params[:, COLUMNS.index("battery_voltage")]
+        self._wheel[WHEEL_ROWS.index("load")] = self.params[:, len(COLUMNS):]
+        self.pose, self.velocity = self._body
+        (
+            self.wheel_speed, self.wheel_angle, self.motor_current, self.slip, _, _, self.wheel_load
+        ) = self._wheel
+        self.battery_voltage = self._robot[0]
         self._ticks = 0
+        self._dt = None
+        self._steps = 1
         self.t = 0.0
 
     @staticmethod
@@ -208,45 +227,63 @@ class World:
             f"robot (slip stiffness or contact)"
         )
 
+    def _row(self, name: str) -> np.ndarray:
+        return self._robot[ROBOT_ROWS.index(name)]
+
+    @property
+    def wheel_force(self) -> np.ndarray:
+        """Floor force on each wheel, body frame [N], shape (N, W, 2) (a copy)."""
+        return np.stack([self._wheel[WHEEL_ROWS.index("force_x")], self._wheel[WHEEL_ROWS.index("force_y")]], axis=-1)
+
     @property
     def contact_count(self) -> np.ndarray:
-        """New contacts with walls or obstacles so far, shape (N,)."""
-        return self._counters[:, 0].copy()
+        """Contacts with walls or obstacles so far, shape (N,) (a contact ends once the robot
+        has been clear for :data:`sim.physics.CONTACT_CLEAR` seconds)."""
+        return self._row("contacts").astype(np.int64)
 
     @property
     def diverged(self) -> np.ndarray:
         """Robots whose state became non-finite (frozen since), shape (N,)."""
-        return self._counters[:, 1] != 0
+        return self._row("diverged") != 0.0
 
     @property
     def in_contact(self) -> np.ndarray:
-        """Touching a wall now, shape (N,)."""
-        return self._state_f[:, 2] > 0
+        """In a contact now (touching, or clear for less than CONTACT_CLEAR), shape (N,)."""
+        return self._row("in_contact") > 0.0
 
     @property
     def peak_penetration(self) -> np.ndarray:
         """Deepest contact penetration so far [m], shape (N,)."""
-        return self._state_f[:, 0].copy()
+        return self._row("peak_penetration").copy()
 
     @property
     def slip_energy(self) -> np.ndarray:
         """Energy dissipated by wheel slip so far [J], shape (N,)."""
-        return self._state_f[:, 1].copy()
+        return self._row("slip_energy").copy()
 
     def advance(self, duty: np.ndarray, dt: float) -> None:
-        """Apply ``duty`` (N, W) in [-1, 1] (skid/differential also (N, 2)) for ``dt`` seconds."""
-        d = np.clip(self.geom.expand_duty(duty), -1.0, 1.0)
-        if d.shape != (self.n, self.geom.wheels):
+        """Apply ``duty`` (N, W) in [-1, 1] (skid/differential also (N, 2)) for ``dt`` seconds.
+
+        Duty beyond [-1, 1] is clipped.
+        """
+        d = duty
+        if type(d) is not np.ndarray or d.dtype != np.float64 or d.ndim != 2 or not d.flags.c_contiguous:
+            d = np.ascontiguousarray(np.atleast_2d(np.asarray(duty, dtype=np.float64)))
+        if d.shape[0] != self.n or not (d.shape[1] == self.geom.wheels or (d.shape[1] == 2 and self.geom.kind != "mecanum")):
+            self.geom.expand_duty(d)  # raises the one-line error for a wrong wheel count
             raise ValueError(f"duty must have shape ({self.n}, {self.geom.wheels}), got {d.shape}")
-        steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
-        h = dt / steps
-        step_kernel(
-            self.pose, self.velocity, self.wheel_speed, self.wheel_angle, self.motor_current,
-            self.battery_voltage, self.slip, self.wheel_force, self._state_f, self._counters,
-            np.ascontiguousarray(d), self.params, self.wheel_xy, self.grip, self.loads,
-            self.segs, self.free_left, self.patch_poly, self.patch_count, self.patch_scale,
-            self.floor_scale, h, steps,
+        if dt != self._dt:
+            self._dt = dt
+            self._steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
+        steps = self._steps
+        kernel = step_kernel
+        if self.n >= self.PARALLEL_MIN and numba.get_num_threads() > 1 and threading.current_thread() is threading.main_thread():
+            # numba's thread pool is entered from the main thread only (its workqueue layer
+            # is not re-entrant from other threads)
+            kernel = step_kernel_parallel
+        kernel(
+            self._body, self._wheel, self._robot, d, self.params, self.layout, self.segs,
+            self.patches, self.floor_scale, dt / steps, steps,
         )
         self._ticks += 1
-        self._dt = dt
         self.t = self._ticks * dt

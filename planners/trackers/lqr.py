@@ -11,7 +11,7 @@ from planners.gains import bryson, discretise, dlqr
 from planners.params import Param
 from planners.plan import Plan
 from planners.se2 import wrap_one
-from planners.trackers.base import TRACKERS, BodyCommand, TrackerBase, reference
+from planners.trackers.base import SETTLE_PARAMS, TRACKERS, BodyCommand, TrackerBase, reference, settle
 
 
 def error_model(speed: float, turn_rate: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
@@ -73,7 +73,9 @@ class LQR(TrackerBase):
     controllable) it blends through zero lateral gain, as the gain changes sign with the
     speed. The design uses ``omega_d = 0`` (gains scheduled by speed alone); the coupling
     ``omega_d`` terms are left to the feedback. Reference by time; ``vy = 0``; feedforward
-    acceleration is the plan's.
+    acceleration is the plan's. Past the plan's end, near the end pose, the final alignment of
+    :func:`planners.trackers.base.settle` drives onto it (at rest the lateral error is not
+    controllable).
 
     Convergence: started 0.1 m and 10 deg off, the position error halves within
     ``2 / sigma``, where ``sigma = -ln(max |eig(Ad - Bd K)|) / dt`` is the decay rate of the
@@ -93,6 +95,7 @@ class LQR(TrackerBase):
         ),
         "min_speed": Param("speed", 0.02, "smallest design speed of the schedule", gt=0.0),
         "schedule_points": Param("count", 16, "design speeds per direction", ge=2),
+        **SETTLE_PARAMS,
     }
 
     def weights(self) -> tuple[np.ndarray, np.ndarray]:
@@ -151,4 +154,7 @@ class LQR(TrackerBase):
         acc = np.zeros((self.n, 3))
         acc[:, 0] = ref_acc[0]
         acc[:, 2] = ref_acc[2]
-        return BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))
+        cmd = BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))
+        # at rest the lateral error is not controllable: the final alignment takes over
+        p = self.params
+        return settle(cmd, t, self.plan, pose, radius=p["settle_radius"], gain=p["settle_gain"])
