@@ -23,7 +23,7 @@ WALL_MU = 0.3
 _MAX_DEPTH = 0.15  # m: deeper crossings belong to the far side of a wall, not a contact
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, error_model="numpy")
 def contact_forces(x, y, c, s, vx, vy, om, half_len, half_wid, mass, segs):
     """Total contact force (body frame), moment and deepest penetration of one robot.
 

@@ -28,7 +28,7 @@ import math
 from numba import njit
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, error_model="numpy", forceinline=True)
 def saturate(x: float) -> tuple[float, float]:
     """Smooth sign of ``x`` and its slope.
 
@@ -51,7 +51,7 @@ def saturate(x: float) -> tuple[float, float]:
     return x * (27.0 + x2) * d / 9.0, q * q / 9.0
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, error_model="numpy", forceinline=True)
 def _magic(s, vnorm, b, c, e):
     # F / D and d(F / D) / ds of the magic formula at slip speed s (slip ratio k = s / vnorm)
     bk = b * s / vnorm
@@ -61,7 +61,7 @@ def _magic(s, vnorm, b, c, e):
     return math.sin(ang), math.cos(ang) * c / (1.0 + phi * phi) * dphi / vnorm
 
 
-@njit(cache=True, inline="always")
+@njit(cache=True, error_model="numpy", forceinline=True)
 def wheel_force(vcx, vcy, rim, gdx, gdy, gscale, mu, load, vs, crr, roller, model, b, c, e):
     """Floor force on one wheel (body frame) and its slip.
 
@@ -88,10 +88,11 @@ def wheel_force(vcx, vcy, rim, gdx, gdy, gscale, mu, load, vs, crr, roller, mode
     fmax = mu * load
     mecanum = gscale < 0.999  # grip along g only, rollers free across it
     sp = 0.0 if mecanum else vp
-    mag = math.sqrt(sg * sg + sp * sp)
+    mag = abs(sg) if mecanum else math.sqrt(sg * sg + sp * sp)
     if model == 0:
-        shape, slope = saturate(mag / vs)
-        slope /= vs
+        inv_vs = 1.0 / vs
+        shape, slope = saturate(mag * inv_vs)
+        slope *= inv_vs
     else:
         vnorm = max(abs(vg), abs(rim * gscale), vs)
         shape, slope = _magic(mag, vnorm, b, c, e)

@@ -16,7 +16,7 @@ from planners.kinematics import ChassisGeometry
 from sim.config_robot import Robot
 from sim.field import Field
 from sim.motors import motor_constants
-from sim.physics import COLUMNS, G0, ROBOT_ROWS, WHEEL_ROWS, step_kernel, step_kernel_parallel
+from sim.physics import BLOCK, COLUMNS, G0, MAX_WHEELS, ROBOT_ROWS, WHEEL_ROWS, step_kernel, step_kernel_parallel
 from sim.contact import DAMPING_RATIO, STIFFNESS
 
 
@@ -152,7 +152,7 @@ class World:
 
     #: batches at least this large spread the physics over numba's threads (below it the
     #: threads cost more than they save; measured with ``skidpad bench physics``)
-    PARALLEL_MIN = 64
+    PARALLEL_MIN = 2 * BLOCK
 
     def __init__(
         self,
@@ -171,6 +171,8 @@ class World:
             wheelbase=robot.wheelbase, wheels=robot.wheel_count,
         )
         w = self.geom.wheels
+        if w > MAX_WHEELS:
+            raise ScenarioError(f"world: at most {MAX_WHEELS} wheels are simulated, got {w}")
         params = dict(params or {})
         for key, arr in params.items():
             if np.shape(arr) != (n,):
@@ -181,7 +183,8 @@ class World:
             for key, arr in params.items():
                 r = _replace(r, key, float(arr[i]))
             rows.append(np.concatenate([robot_row(r), static_loads(r, self.geom)]))
-        self.params = np.ascontiguousarray(np.array(rows).reshape(n, len(COLUMNS) + w))
+        #: per-robot parameters, one row per quantity (sim.physics.COLUMNS, then wheel loads)
+        self.params = np.ascontiguousarray(np.array(rows).reshape(n, len(COLUMNS) + w).T)
         self.layout = np.ascontiguousarray(np.hstack([self.geom.wheel_positions, grip_directions(self.geom)]))
         self.segs = _oriented_segments(field)
         self.patches = _packed_patches(field)
@@ -193,8 +196,9 @@ class World:
             self._body[0] = np.asarray(pose0, dtype=np.float64).reshape(n, 3)
         self._wheel = np.zeros((len(WHEEL_ROWS), n, w))
         self._robot = np.zeros((len(ROBOT_ROWS), n))
-        self._robot[0] = self.params[:, COLUMNS.index("battery_voltage")]
-        self._wheel[WHEEL_ROWS.index("load")] = self.params[:, len(COLUMNS):]
+        self._robot[0] = self.params[COLUMNS.index("battery_voltage")]
+        self._wheel[WHEEL_ROWS.index("load")] = self.params[len(COLUMNS):].T
+        self._parallel = n >= self.PARALLEL_MIN
         self.pose, self.velocity = self._body
         (
             self.wheel_speed, self.wheel_angle, self.motor_current, self.slip, _, _, self.wheel_load
@@ -238,7 +242,7 @@ class World:
     @property
     def contact_count(self) -> np.ndarray:
         """Contacts with walls or obstacles so far, shape (N,) (a contact ends once the robot
-        has been clear for :data:`sim.physics.CONTACT_CLEAR` seconds)."""
+        has been clear for :data:`sim.substep.CONTACT_CLEAR` seconds)."""
         return self._row("contacts").astype(np.int64)
 
     @property
@@ -276,14 +280,15 @@ class World:
             self._dt = dt
             self._steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
         steps = self._steps
-        kernel = step_kernel
-        if self.n >= self.PARALLEL_MIN and numba.get_num_threads() > 1 and threading.current_thread() is threading.main_thread():
-            # numba's thread pool is entered from the main thread only (its workqueue layer
-            # is not re-entrant from other threads)
-            kernel = step_kernel_parallel
-        kernel(
+        args = (
             self._body, self._wheel, self._robot, d, self.params, self.layout, self.segs,
             self.patches, self.floor_scale, dt / steps, steps,
         )
+        # numba's thread pool is entered from the main thread only (its workqueue layer is
+        # not re-entrant from other threads)
+        if self._parallel and numba.get_num_threads() > 1 and threading.current_thread() is threading.main_thread():
+            step_kernel_parallel(*args)
+        else:
+            step_kernel(*args)
         self._ticks += 1
         self.t = self._ticks * dt

@@ -210,6 +210,36 @@ def test_batch_equals_singles():
         np.testing.assert_array_equal(one.wheel_speed[0], batch.wheel_speed[i])
 
 
+def test_block_driver_and_threads_equal_singles_on_walls_and_patches():
+    # Large batches go through the stage-by-stage block driver (vectorised, blocks over
+    # threads), single robots robot by robot: a robot's numbers must not depend on which, on a
+    # field with walls, a pillar and a slippery patch, with load transfer and varied robots.
+    from sim.field import Field, Patch
+
+    field = Field(
+        name="bay", boundary=np.array([[0, 0], [3, 0], [3, 3], [0, 3]], float),
+        obstacles=(np.array([[1.4, 1.4], [1.6, 1.4], [1.6, 1.6], [1.4, 1.6]], float),),
+        patches=(Patch(polygon=np.array([[0.5, 0.5], [2.5, 0.5], [2.5, 1.2], [0.5, 1.2]], float), friction_scale=0.3),),
+    )
+    r = robot("skid", traction=Traction(mu=0.8, load_transfer=True, cg_height=0.1))
+    n = 2 * 64 + 3  # two full blocks and a partial one
+    rng = np.random.default_rng(7)
+    pose0 = np.column_stack([rng.uniform(0.4, 2.6, n), rng.uniform(0.4, 2.6, n), rng.uniform(-3, 3, n)])
+    params = {"mass": rng.uniform(9, 15, n), "traction.mu": rng.uniform(0.4, 1.1, n)}
+    duty = rng.uniform(-1, 1, (n, 2))
+    batch = World(r, n, field=field, params=params, pose0=pose0)
+    drive(batch, duty, 1.5)
+    assert batch.contact_count.sum() > 0  # the walls and the pillar are in play
+    for i in (0, 63, 64, 100, n - 1):
+        one = World(r, 1, field=field, params={k: v[i : i + 1] for k, v in params.items()}, pose0=pose0[i : i + 1])
+        drive(one, duty[i : i + 1], 1.5)
+        np.testing.assert_array_equal(one.pose[0], batch.pose[i])
+        np.testing.assert_array_equal(one.wheel_speed[0], batch.wheel_speed[i])
+        np.testing.assert_array_equal(one.wheel_load[0], batch.wheel_load[i])
+        assert one.contact_count[0] == batch.contact_count[i]
+        assert one.slip_energy[0] == batch.slip_energy[i]
+
+
 def test_wall_push_stalls_without_tunnelling():
     from tests.sim.test_bad_input import FIELD  # noqa: F401  (keeps the field vocabulary shared)
     from sim.field import Field
