@@ -30,6 +30,7 @@ from typing import Any, ClassVar
 import numpy as np
 from numba import njit
 
+from planners.arrays import as_rows
 from planners.errors import ScenarioError
 from planners.gains import simc_integral_gain, velocity_lqr, wheel_loop_weights
 from planners.params import Param
@@ -175,60 +176,70 @@ def feedforward_from_motor(
 # ---------------------------------------------------------------- the loop
 
 
+#: rows of the packed gains (7, N, W) and loop state (3, N, W) of :class:`WheelController`
+_GAINS = ("kS", "kV", "kA", "kP", "kI", "kD", "i_limit")
+_INTEG, _DFILT, _PREV = range(3)
+
+
+@njit(cache=True, inline="always")
+def _wheel_robot(i, target, accel, measured, vbatt, g, state, primed, dt, d_alpha, u, out):
+    """The wheel loop of robot ``i`` for one tick (``u`` is (W,) scratch)."""
+    w = target.shape[1]
+    ks, kv, ka, kp, ki, kd, ilim = g[0], g[1], g[2], g[3], g[4], g[5], g[6]
+    integ, dfilt, prev = state[_INTEG], state[_DFILT], state[_PREV]
+    vb = max(vbatt[i], 1e-6)
+    peak = 0.0
+    for j in range(w):
+        e = target[i, j] - measured[i, j]
+        # derivative on measurement, first-order filtered
+        if primed[i] and kd[i, j] != 0.0:
+            raw = (measured[i, j] - prev[i, j]) / dt
+            dfilt[i, j] += d_alpha * (raw - dfilt[i, j])
+        prev[i, j] = measured[i, j]
+        ff = ks[i, j] * np.sign(target[i, j]) + kv[i, j] * target[i, j] + ka[i, j] * accel[i, j]
+        fb = kp[i, j] * e + kd[i, j] * (accel[i, j] - dfilt[i, j])
+        trial = min(ilim[i, j], max(-ilim[i, j], integ[i, j] + ki[i, j] * e * dt))
+        u[j] = ff + fb + trial
+        peak = max(peak, abs(u[j]) / vb)
+        out[i, j] = trial  # keep the trial integral until saturation is known
+    primed[i] = True
+    saturated = peak > 1.0
+    for j in range(w):
+        e = target[i, j] - measured[i, j]
+        if saturated and e * u[j] > 0.0:
+            # conditional integration: hold the integral pushing into saturation
+            u[j] += integ[i, j] - out[i, j]
+        else:
+            integ[i, j] = out[i, j]
+    peak = 0.0
+    for j in range(w):
+        peak = max(peak, abs(u[j]) / vb)
+    scale = 1.0 / peak if peak > 1.0 else 1.0
+    for j in range(w):
+        out[i, j] = min(1.0, max(-1.0, u[j] / vb * scale))
+
+
 @njit(cache=True)
-def _wheel_kernel(
-    target,
-    accel,
-    measured,
-    vbatt,
-    ks,
-    kv,
-    ka,
-    kp,
-    ki,
-    kd,
-    ilim,
-    dt,
-    d_alpha,
-    integ,
-    dfilt,
-    prev,
-    primed,
-    out,
-):
-    n, w = target.shape
-    u = np.empty(w)
-    for i in range(n):
-        vb = max(vbatt[i], 1e-6)
-        peak = 0.0
-        for j in range(w):
-            e = target[i, j] - measured[i, j]
-            # derivative on measurement, first-order filtered
-            if primed[i] and kd[i, j] != 0.0:
-                raw = (measured[i, j] - prev[i, j]) / dt
-                dfilt[i, j] += d_alpha * (raw - dfilt[i, j])
-            prev[i, j] = measured[i, j]
-            ff = ks[i, j] * np.sign(target[i, j]) + kv[i, j] * target[i, j] + ka[i, j] * accel[i, j]
-            fb = kp[i, j] * e + kd[i, j] * (accel[i, j] - dfilt[i, j])
-            trial = min(ilim[i, j], max(-ilim[i, j], integ[i, j] + ki[i, j] * e * dt))
-            u[j] = ff + fb + trial
-            peak = max(peak, abs(u[j]) / vb)
-            out[i, j] = trial  # keep the trial integral until saturation is known
-        primed[i] = True
-        saturated = peak > 1.0
-        for j in range(w):
-            e = target[i, j] - measured[i, j]
-            if saturated and e * u[j] > 0.0:
-                # conditional integration: hold the integral pushing into saturation
-                u[j] += integ[i, j] - out[i, j]
-            else:
-                integ[i, j] = out[i, j]
-        peak = 0.0
-        for j in range(w):
-            peak = max(peak, abs(u[j]) / vb)
-        scale = 1.0 / peak if peak > 1.0 else 1.0
-        for j in range(w):
-            out[i, j] = min(1.0, max(-1.0, u[j] / vb * scale))
+def _wheel_kernel(target, accel, measured, vbatt, g, state, primed, dt, d_alpha, out):
+    u = np.empty(target.shape[1])
+    for i in range(target.shape[0]):
+        _wheel_robot(i, target, accel, measured, vbatt, g, state, primed, dt, d_alpha, u, out)
+
+
+@njit(cache=True)
+def _twist_wheel_kernel(twist, twist_accel, matrix, measured, vbatt, g, state, primed, dt, d_alpha, target, accel, out):
+    # wheel targets from the body twist (row by row, as planners.kinematics), then the loop
+    u = np.empty(target.shape[1])
+    for i in range(target.shape[0]):
+        for a in range(matrix.shape[0]):
+            v = 0.0
+            dv = 0.0
+            for b in range(3):
+                v += twist[i, b] * matrix[a, b]
+                dv += twist_accel[i, b] * matrix[a, b]
+            target[i, a] = v
+            accel[i, a] = dv
+        _wheel_robot(i, target, accel, measured, vbatt, g, state, primed, dt, d_alpha, u, out)
 
 
 def _p(dimension: str, default: Any, doc: str, **kw: Any) -> Param:
@@ -363,13 +374,11 @@ class WheelController:
             When a per-robot gain of shape (N', W) does not match ``n``.
         """
         shape = (int(n), self.wheels)
-        self._g = {
-            k: np.ascontiguousarray(np.broadcast_to(_per_wheel(v, shape, k), shape))
-            for k, v in self.gains.items()
-        }
-        self._integ = np.zeros(shape)
-        self._dfilt = np.zeros(shape)
-        self._prev = np.zeros(shape)
+        gains = self.gains
+        self._g = np.ascontiguousarray(np.stack([_per_wheel(gains[k], shape, k) for k in _GAINS]))
+        self._state = np.zeros((3, *shape))
+        self._integ = self._state[_INTEG]
+        self._shape = shape
         self._primed = np.zeros(shape[0], dtype=np.bool_)
         tau = self.params["d_filter"]
         self._d_alpha = 1.0 if tau <= 0.0 else float(1.0 - np.exp(-self.dt / tau))
@@ -401,37 +410,54 @@ class WheelController:
         """
         if self._integ is None:
             raise RuntimeError("WheelController.duty: call reset(n) first")
-        shape = self._integ.shape
-        args = [
-            np.ascontiguousarray(np.broadcast_to(np.asarray(x, dtype=np.float64), shape))
-            for x in (target_speed, target_accel, measured_speed)
-        ]
-        vb = np.ascontiguousarray(
-            np.broadcast_to(np.asarray(battery_voltage, dtype=np.float64).reshape(-1), shape[:1])
-        )
-        g = self._g
+        shape = self._shape
+        vb = battery_voltage
+        if np.ndim(vb) != 1:
+            vb = np.asarray(vb, dtype=np.float64).reshape(-1)
         out = np.empty(shape)
         _wheel_kernel(
-            args[0],
-            args[1],
-            args[2],
-            vb,
-            g["kS"],
-            g["kV"],
-            g["kA"],
-            g["kP"],
-            g["kI"],
-            g["kD"],
-            g["i_limit"],
-            self.dt,
-            self._d_alpha,
-            self._integ,
-            self._dfilt,
-            self._prev,
-            self._primed,
-            out,
+            as_rows(target_speed, shape), as_rows(target_accel, shape), as_rows(measured_speed, shape),
+            as_rows(vb, shape[:1]), self._g, self._state, self._primed, self.dt, self._d_alpha, out,
         )
         return out
+
+
+    def duty_from_twist(
+        self,
+        twist: np.ndarray,
+        twist_accel: np.ndarray,
+        inverse_matrix: np.ndarray,
+        measured_speed: np.ndarray,
+        battery_voltage: np.ndarray,
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`duty` for a body command: wheel targets by the inverse kinematics first.
+
+        Parameters
+        ----------
+        twist, twist_accel : ndarray, shape (N, 3) — body velocity and its feedforward
+            acceleration (vx, vy, omega), body frame
+        inverse_matrix : ndarray, shape (W, 3) — body twist -> wheel speeds
+            (:attr:`planners.kinematics.ChassisGeometry.inverse_matrix`)
+        measured_speed, battery_voltage : as :meth:`duty`
+
+        Returns
+        -------
+        duty : ndarray, shape (N, W)
+        target_speed : ndarray, shape (N, W) — the wheel speed targets [rad/s]
+        """
+        if self._integ is None:
+            raise RuntimeError("WheelController.duty_from_twist: call reset(n) first")
+        shape = self._shape
+        n = shape[0]
+        target = np.empty(shape)
+        accel = np.empty(shape)
+        out = np.empty(shape)
+        _twist_wheel_kernel(
+            as_rows(twist, (n, 3)), as_rows(twist_accel, (n, 3)), as_rows(inverse_matrix, (self.wheels, 3)),
+            as_rows(measured_speed, shape), as_rows(battery_voltage, (n,)), self._g, self._state,
+            self._primed, self.dt, self._d_alpha, target, accel, out,
+        )
+        return out, target
 
 
 def _per_wheel(value: np.ndarray, shape: tuple[int, int], key: str) -> np.ndarray:

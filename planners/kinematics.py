@@ -99,13 +99,21 @@ class ChassisGeometry:
         -------
         ndarray, shape (N, W) — wheel speeds [rad/s]
         """
-        tw = np.asarray(twist, dtype=np.float64).reshape(-1, 3)
-        return _rows_times(tw, self.inverse_matrix)
+        tw = twist if _is_batch(twist, 3) else np.asarray(twist, dtype=np.float64).reshape(-1, 3)
+        return _rows_times(tw, self._inverse_c)
 
     def forward(self, wheel_speeds: np.ndarray) -> np.ndarray:
         """Body twist from wheel speeds, shape (N, W) -> (N, 3)."""
-        w = np.asarray(wheel_speeds, dtype=np.float64).reshape(-1, self.wheels)
-        return _rows_times(w, self.forward_matrix)
+        w = wheel_speeds if _is_batch(wheel_speeds, self.wheels) else np.asarray(wheel_speeds, dtype=np.float64).reshape(-1, self.wheels)
+        return _rows_times(w, self._forward_c)
+
+    @cached_property
+    def _inverse_c(self) -> np.ndarray:
+        return np.ascontiguousarray(self.inverse_matrix)
+
+    @cached_property
+    def _forward_c(self) -> np.ndarray:
+        return np.ascontiguousarray(self.forward_matrix)
 
     def expand_duty(self, duty: np.ndarray) -> np.ndarray:
         """Duty per wheel (N, W); skid and differential also accept (N, 2) [left, right]."""
@@ -122,11 +130,22 @@ class ChassisGeometry:
         )
 
 
+_F8 = np.dtype(np.float64)
+
+
+def _is_batch(value: np.ndarray, width: int) -> bool:
+    # already a C-contiguous float64 (N, width) array: no conversion needed
+    return (
+        type(value) is np.ndarray and value.dtype is _F8 and value.ndim == 2
+        and value.shape[1] == width and value.flags.c_contiguous
+    )
+
+
 def _rows_times(rows: np.ndarray, matrix: np.ndarray) -> np.ndarray:
     """``rows @ matrix.T`` computed row by row, so a robot's result never depends on the batch
     size (BLAS picks different summation orders for different shapes)."""
     out = np.empty((rows.shape[0], matrix.shape[0]))
-    _rows_times_kernel(np.ascontiguousarray(rows, dtype=np.float64), np.ascontiguousarray(matrix, dtype=np.float64), out)
+    _rows_times_kernel(np.ascontiguousarray(rows, dtype=np.float64), matrix, out)
     return out
 
 

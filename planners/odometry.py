@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
+from planners.arrays import as_rows
 from planners.errors import ScenarioError, did_you_mean, format_value
 from planners.readings import Readings
 from planners.se2 import compose_one, exp_one, wrap_one
@@ -277,6 +278,8 @@ class Odometry:
         self._imu_heading = pose0[:, 2].copy()
         self._since = np.zeros(n)
         self._last_rate = np.zeros(n)
+        self._no_gyro = np.zeros(n)
+        self._no_valid = np.zeros(n, dtype=np.bool_)
 
     def update(self, readings: Readings) -> np.ndarray:
         """Advance by one tick of readings.
@@ -296,13 +299,13 @@ class Odometry:
                 f"odometry: readings.{self._field} must be present for source "
                 f"{self.source!r}, got None"
             )
-        counts = np.ascontiguousarray(counts, dtype=np.float64)
         n = self._pose.shape[0]
-        if counts.shape != (n, self._gain.shape[1]):
+        if np.shape(counts) != (n, self._gain.shape[1]):
             raise ValueError(
                 f"odometry: readings.{self._field} must have shape {(n, self._gain.shape[1])}, "
-                f"got {counts.shape}"
+                f"got {np.shape(counts)}"
             )
+        counts = as_rows(counts, (n, self._gain.shape[1]))
         if self._prev is None:
             self._prev = counts.copy()
             self._t_prev = readings.t
@@ -314,12 +317,12 @@ class Odometry:
                 )
             gyro, valid, interval = readings.gyro_rate, readings.imu_valid, readings.gyro_interval
         else:
-            gyro = interval = np.zeros(n)
-            valid = np.zeros(n, dtype=np.bool_)
+            gyro = interval = self._no_gyro
+            valid = self._no_valid
         _odometry_kernel(
             self._pose, counts, self._prev, self._gain, self._couple, self._own_heading,
-            self.use_imu, np.asarray(gyro, np.float64), np.asarray(valid, np.bool_),
-            np.asarray(interval, np.float64), self._imu_heading, self._since, self._last_rate,
+            self.use_imu, as_rows(gyro, (n,)), np.asarray(valid, np.bool_),
+            as_rows(interval, (n,)), self._imu_heading, self._since, self._last_rate,
             float(readings.t - self._t_prev),
         )
         self._t_prev = readings.t

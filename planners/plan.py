@@ -22,6 +22,10 @@ from numba import njit
 from planners.se2 import wrap
 
 
+_AT_REST = np.zeros(3)
+_AT_REST.setflags(write=False)
+
+
 @dataclass(frozen=True, eq=False)
 class Plan:
     """A timed reference for one route.
@@ -76,6 +80,22 @@ class Plan:
         k = np.rint(np.asarray(t, dtype=np.float64) / self.dt).astype(np.int64)
         return np.clip(k, 0, len(self.t) - 1)
 
+    def at(self, t: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Reference pose, body velocity and body acceleration at one time ``t``.
+
+        As :meth:`sample` for a single time, without the batch: rows of the plan's own arrays
+        (read-only views; copy before changing), the final pose at rest past the end.
+
+        Returns
+        -------
+        pose, velocity, accel : ndarray, each shape (3,)
+        """
+        last = len(self.t) - 1
+        k = min(max(int(t / self.dt + 0.5), 0), last)
+        if t > self.t[last]:
+            return self.pose[last], _AT_REST, _AT_REST
+        return self.pose[k], self.velocity[k], self.accel[k]
+
     def sample(self, t: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Reference pose, body velocity and body acceleration at times ``t``.
 
@@ -99,49 +119,53 @@ class Plan:
         return self.pose[k].copy(), vel, acc
 
 
+@njit(cache=True, inline="always")
+def project_one(px, py, ps, qx, qy, s_prev, back, ahead):
+    """Arc length and signed distance of the nearest path point to ``(qx, qy)`` whose arc
+    length lies in ``[s_prev - back, s_prev + ahead]`` (the scalar core of :func:`project`)."""
+    m = px.shape[0]
+    lo_s = s_prev - back
+    hi_s = s_prev + ahead
+    # first segment whose end lies past lo_s (binary search on increasing ps)
+    lo, hi = 0, m - 1
+    while lo < hi:
+        mid = (lo + hi) // 2
+        if ps[mid + 1] < lo_s:
+            lo = mid + 1
+        else:
+            hi = mid
+    lo = max(0, min(lo, m - 2))  # a window past either end still searches the end segment
+    best = np.inf
+    best_s = ps[0]
+    best_d = 0.0
+    j = lo
+    while j < m - 1 and (ps[j] <= hi_s or j == lo):
+        ax = px[j]
+        ay = py[j]
+        ex = px[j + 1] - ax
+        ey = py[j + 1] - ay
+        ll = ex * ex + ey * ey
+        u = 0.0
+        if ll > 0.0:
+            u = ((qx - ax) * ex + (qy - ay) * ey) / ll
+            u = min(1.0, max(0.0, u))
+        cx = ax + u * ex - qx
+        cy = ay + u * ey - qy
+        dist2 = cx * cx + cy * cy
+        if dist2 < best:
+            best = dist2
+            best_s = ps[j] + u * (ps[j + 1] - ps[j])
+            # signed: positive when the point lies left of the direction of travel
+            cross = ex * (qy - ay) - ey * (qx - ax)
+            best_d = np.sqrt(dist2) if cross >= 0.0 else -np.sqrt(dist2)
+        j += 1
+    return best_s, best_d
+
+
 @njit(cache=True)
 def _project_kernel(px, py, ps, points, s_prev, back, ahead, s_out, d_out):
-    m = px.shape[0]
     for i in range(points.shape[0]):
-        qx = points[i, 0]
-        qy = points[i, 1]
-        lo_s = s_prev[i] - back
-        hi_s = s_prev[i] + ahead
-        # first segment whose end lies past lo_s (binary search on increasing ps)
-        lo, hi = 0, m - 1
-        while lo < hi:
-            mid = (lo + hi) // 2
-            if ps[mid + 1] < lo_s:
-                lo = mid + 1
-            else:
-                hi = mid
-        lo = max(0, min(lo, m - 2))  # a window past either end still searches the end segment
-        best = np.inf
-        best_s = ps[0]
-        best_d = 0.0
-        j = lo
-        while j < m - 1 and (ps[j] <= hi_s or j == lo):
-            ax = px[j]
-            ay = py[j]
-            ex = px[j + 1] - ax
-            ey = py[j + 1] - ay
-            ll = ex * ex + ey * ey
-            u = 0.0
-            if ll > 0.0:
-                u = ((qx - ax) * ex + (qy - ay) * ey) / ll
-                u = min(1.0, max(0.0, u))
-            cx = ax + u * ex - qx
-            cy = ay + u * ey - qy
-            dist2 = cx * cx + cy * cy
-            if dist2 < best:
-                best = dist2
-                best_s = ps[j] + u * (ps[j + 1] - ps[j])
-                # signed: positive when the point lies left of the direction of travel
-                cross = ex * (qy - ay) - ey * (qx - ax)
-                best_d = np.sqrt(dist2) if cross >= 0.0 else -np.sqrt(dist2)
-            j += 1
-        s_out[i] = best_s
-        d_out[i] = best_d
+        s_out[i], d_out[i] = project_one(px, py, ps, points[i, 0], points[i, 1], s_prev[i], back, ahead)
 
 
 def project(

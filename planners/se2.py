@@ -80,16 +80,20 @@ def _exp_kernel(twist: np.ndarray, out: np.ndarray) -> None:
         out[i, 0], out[i, 1], out[i, 2] = exp_one(twist[i, 0], twist[i, 1], twist[i, 2])
 
 
+@njit(cache=True, inline="always")
+def log_one(x: float, y: float, h: float) -> tuple[float, float, float]:
+    """The constant twist whose exact arc reaches pose ``(x, y, h)`` from the identity."""
+    theta = wrap_one(h)
+    a, b = _arc_coefficients(theta)
+    # V^-1 = [[A, B], [-B, A]] / (A^2 + B^2)
+    d = a * a + b * b
+    return (a * x + b * y) / d, (-b * x + a * y) / d, theta
+
+
 @njit(cache=True)
 def _log_kernel(pose: np.ndarray, out: np.ndarray) -> None:
     for i in range(pose.shape[0]):
-        theta = wrap_one(pose[i, 2])
-        a, b = _arc_coefficients(theta)
-        # V^-1 = [[A, B], [-B, A]] / (A^2 + B^2)
-        d = a * a + b * b
-        out[i, 0] = (a * pose[i, 0] + b * pose[i, 1]) / d
-        out[i, 1] = (-b * pose[i, 0] + a * pose[i, 1]) / d
-        out[i, 2] = theta
+        out[i, 0], out[i, 1], out[i, 2] = log_one(pose[i, 0], pose[i, 1], pose[i, 2])
 
 
 def _as_batch(name: str, value: np.ndarray) -> np.ndarray:

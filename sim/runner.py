@@ -13,6 +13,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numba import njit
 
 from planners.control import WheelController, feedforward_from_motor
 from planners.estimators import ESTIMATORS
@@ -20,13 +21,68 @@ from planners.odometry import Odometry
 from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
-from planners.se2 import wrap
+from planners.se2 import wrap_one
 from planners.trackers import TRACKERS
 from sim.scenario import Scenario, robot_value
 from sim.scoring import ScoreKeeper
 from sim.sensors import Sensors
 from sim.trace import Trace, TraceRecorder
 from sim.world import World
+
+#: end-of-run codes of :func:`_judge_kernel`
+_RUNNING, _DIVERGED, _COLLIDED, _DONE, _LATE = range(5)
+_STATUS = ("running", "diverged", "collided", "completed", "timeout")
+
+
+@njit(cache=True)
+def _judge_kernel(active, diverged, contacts, pose, vel, limits, finish, at_goal, late, codes):
+    """Which active runs end this tick and why (``codes``, see ``_STATUS``); returns the count.
+
+    A run ends when its physics diverged, when it touched a wall (with collision "stop"),
+    once ``finish`` (plan or script over) and, when ``at_goal``, it is at the end pose within
+    the tolerances and settled; else when ``late`` (the timeout is reached). ``limits`` holds
+    the end pose (3), the position, heading and speed tolerances and 1 for collision "stop".
+    """
+    goal = limits[:3]
+    goal_tol, heading_tol, settle_speed = limits[3], limits[4], limits[5]
+    collision_stop = limits[6] != 0.0
+    ended = 0
+    for i in range(active.shape[0]):
+        codes[i] = _RUNNING
+        if not active[i]:
+            continue
+        if diverged[i] != 0.0:
+            codes[i] = _DIVERGED
+        elif collision_stop and contacts[i] > 0:
+            codes[i] = _COLLIDED
+        elif finish and (not at_goal or (
+            math.hypot(pose[i, 0] - goal[0], pose[i, 1] - goal[1]) <= goal_tol
+            and abs(wrap_one(pose[i, 2] - goal[2])) <= heading_tol
+            and math.hypot(vel[i, 0], vel[i, 1]) <= settle_speed
+            and abs(vel[i, 2]) <= 0.1
+        )):
+            codes[i] = _DONE
+        elif late:
+            codes[i] = _LATE
+        if codes[i] != _RUNNING:
+            ended += 1
+    return ended
+
+
+@njit(cache=True)
+def _encoder_speed_kernel(counts, prev, count_to_speed, forward, speed, twist):
+    """Wheel speeds (counts - previous) * 2 pi / (cpr dt) and their body twist (row by row, as
+    planners.kinematics); the counts become the previous ones."""
+    for i in range(counts.shape[0]):
+        for j in range(counts.shape[1]):
+            speed[i, j] = (counts[i, j] - prev[i, j]) * count_to_speed
+            prev[i, j] = counts[i, j]
+        for a in range(3):
+            acc = 0.0
+            for j in range(counts.shape[1]):
+                acc += speed[i, j] * forward[a, j]
+            twist[i, a] = acc
+
 
 #: stream numbers inside one run's SeedSequence
 _VARY, _SENSORS, _ESTIMATOR = 0, 1, 2
@@ -133,6 +189,19 @@ class Simulation:
         self.status_time = np.zeros(n)
         self.end_tick = np.zeros(n, dtype=np.int64)
         self.active = np.ones(n, dtype=bool)
+        self.n_active = n
+        self._codes = np.zeros(n, dtype=np.int64)
+        self._status_rows = self.world.status_rows()
+        self._inverse = np.ascontiguousarray(self.geom.inverse_matrix)
+        self._forward = np.ascontiguousarray(self.geom.forward_matrix)
+        r = sc.run
+        self._limits = np.array([
+            *self.plan.final_pose[0], r.goal_tolerance, r.heading_tolerance, r.settle_speed,
+            1.0 if r.collision == "stop" else 0.0,
+        ])
+        self._count_to_speed = (
+            2.0 * math.pi / (sc.sensors.encoders.counts_per_rev * self.dt) if sc.sensors.encoders is not None else 0.0
+        )
         self.estimate = pose0.copy()
         self.covariance: np.ndarray | None = None
         self.command = None
@@ -147,57 +216,64 @@ class Simulation:
         """Time of the current tick [s] (exactly k * dt)."""
         return self.k * self.dt
 
-    def _measured_wheel_speed(self, readings) -> np.ndarray:
+    def _measured_motion(self, readings) -> tuple[np.ndarray, np.ndarray]:
+        """Wheel speeds from the encoder counts of the last tick (N, W) and the body twist
+        they imply by the forward kinematics (N, 3); the true wheel speeds without encoders."""
         counts = readings.encoder_counts
         if counts is None:
-            return self.world.wheel_speed.copy()
-        cpr = self.scenario.sensors.encoders.counts_per_rev
+            speed = self.world.wheel_speed.copy()
+            return speed, self.geom.forward(speed)
         if self._prev_counts is None:
             self._prev_counts = counts.copy()
-        speed = (counts - self._prev_counts) * (2.0 * math.pi / cpr) / self.dt
-        self._prev_counts = counts.copy()
-        return speed
+        speed = np.empty(counts.shape)
+        twist = np.empty((counts.shape[0], 3))
+        _encoder_speed_kernel(counts, self._prev_counts, self._count_to_speed, self._forward, speed, twist)
+        return speed, twist
 
     def step(self) -> bool:
         """Advance every active robot by one control tick; False once every run has ended."""
-        if not self.active.any():
+        if self.n_active == 0:
             return False
-        t = self.t
+        t = self.k * self.dt
         w = self.world
         readings = self.sensors.read(t, w.pose, w.wheel_angle)
         readings.battery_voltage = w.battery_voltage.copy()
         self.readings = readings
         if self._needs_truth:
             readings.truth = w.pose.copy()
-        measured = self._measured_wheel_speed(readings)
+        measured, moving = self._measured_motion(readings)
         self.estimate = self.estimator.update(t, readings)
         self.covariance = getattr(self.estimator, "covariance", None)
         if self.odometry is not None:
             self.odometry.update(readings)
-        velocity_est = self.geom.forward(measured)
-        cmd = self.tracker.command(t, self.estimate, velocity_est)
+        cmd = self.tracker.command(t, self.estimate, moving)
         self.command = cmd
         if cmd.duty is not None:
-            duty = self.geom.expand_duty(cmd.duty)
+            duty = self.geom.expand_duty(cmd.duty).copy()
             target = np.full_like(measured, np.nan)
         else:
-            target = self.geom.inverse(cmd.velocity)
-            duty = self.wheels.duty(target, self.geom.inverse(cmd.accel), measured, w.battery_voltage)
-        duty = self.duty = np.where(self.active[:, None], duty, 0.0)
+            duty, target = self.wheels.duty_from_twist(
+                cmd.velocity, cmd.accel, self._inverse, measured, w.battery_voltage
+            )
+        if self.n_active < self.n:
+            duty[~self.active] = 0.0
+        self.duty = duty
         self.score.update(
             self.k, t, self.active, w.pose, self.estimate, self.covariance, duty, w.motor_current, w.battery_voltage
         )
-        ref = self.plan.pose[min(self.k, len(self.plan.t) - 1)][None, :].repeat(self.n, axis=0) if self.recorder.columns.size else None
-        self.recorder.record(
-            self.k, t, pose=w.pose, velocity=w.velocity, estimate=self.estimate, covariance=self.covariance,
-            reference=ref, command=cmd.velocity, target=cmd.target, duty=duty, wheel_speed=w.wheel_speed,
-            wheel_target=target, current=w.motor_current, slip=w.slip, battery=w.battery_voltage,
-            cross_track=self.score.cross_track, fix=readings.fix_if_new() if hasattr(readings, "fix_if_new") else None,
-        )
+        if self.recorder.columns.size:
+            self.recorder.record(
+                self.k, t, pose=w.pose, velocity=w.velocity, estimate=self.estimate, covariance=self.covariance,
+                reference=self.plan.pose[min(self.k, len(self.plan.t) - 1)][None, :].repeat(self.n, axis=0),
+                command=cmd.velocity, target=cmd.target, duty=duty, wheel_speed=w.wheel_speed,
+                wheel_target=target, current=w.motor_current, slip=w.slip, battery=w.battery_voltage,
+                cross_track=self.score.cross_track,
+                fix=readings.fix_if_new() if hasattr(readings, "fix_if_new") else None,
+            )
         self._judge(t, cmd)
         w.advance(duty, self.dt)
         self.k += 1
-        return bool(self.active.any())
+        return self.n_active > 0
 
     def _end(self, i: int, status: str, t: float, cause: str) -> None:
         self.status[i] = status
@@ -205,6 +281,7 @@ class Simulation:
         self.status_time[i] = t
         self.end_tick[i] = self.k
         self.active[i] = False
+        self.n_active -= 1
         self.final_estimate[i] = self.estimate[i]
         self.final_true[i] = self.world.pose[i]
         if self.odometry is not None:
@@ -212,38 +289,27 @@ class Simulation:
 
     def _judge(self, t: float, cmd) -> None:
         w = self.world
-        sc = self.scenario
-        active = self.active
-        diverged = w.diverged & active
-        collided = np.zeros_like(active)
-        if sc.run.collision == "stop":
-            collided = active & ~diverged & (w.contact_count > 0)
-        rest = active & ~diverged & ~collided
-        done = np.zeros_like(active)
-        if cmd.duty is not None:
-            if self.script_end is not None and t >= self.script_end:
-                done = rest
-        elif t >= self.plan_duration:
-            goal = self.plan.final_pose[0]
-            pose, vel = w.pose, w.velocity
-            done = (
-                rest
-                & (np.hypot(pose[:, 0] - goal[0], pose[:, 1] - goal[1]) <= sc.run.goal_tolerance)
-                & (np.abs(wrap(pose[:, 2] - goal[2])) <= sc.run.heading_tolerance)
-                & (np.hypot(vel[:, 0], vel[:, 1]) <= sc.run.settle_speed)
-                & (np.abs(vel[:, 2]) <= 0.1)
-            )
-        late = rest & ~done & (t + self.dt > self.timeout + 1e-12)
-        if not (diverged.any() or collided.any() or done.any() or late.any()):
+        script = cmd.duty is not None
+        if script:
+            finish = self.script_end is not None and t >= self.script_end
+        else:
+            finish = t >= self.plan_duration
+        codes = self._codes
+        diverged, contacts = self._status_rows
+        ended = _judge_kernel(
+            self.active, diverged, contacts, w.pose, w.velocity, self._limits, finish, not script,
+            t + self.dt > self.timeout + 1e-12, codes,
+        )
+        if not ended:
             return
-        for mask, status, cause in (
-            (diverged, "diverged", "non-finite state in the physics"),
-            (collided, "collided", "touched a wall or obstacle"),
-            (done, "completed", "voltage script finished" if cmd.duty is not None else "reached the end pose and settled"),
-            (late, "timeout", f"not settled at the end pose after {self.timeout:g} s"),
-        ):
-            for i in np.flatnonzero(mask):
-                self._end(i, status, t, cause)
+        causes = (
+            "", "non-finite state in the physics", "touched a wall or obstacle",
+            "voltage script finished" if script else "reached the end pose and settled",
+            f"not settled at the end pose after {self.timeout:g} s",
+        )
+        for code in (_DIVERGED, _COLLIDED, _DONE, _LATE):
+            for i in np.flatnonzero(codes == code):
+                self._end(i, _STATUS[code], t, causes[code])
 
     def run(self) -> list[RunResult]:
         """Step until every run has ended; return one result per run."""

@@ -15,7 +15,7 @@ import numpy as np
 
 from numba import njit
 
-from planners.plan import Plan, project
+from planners.plan import Plan, project_one
 from planners.se2 import wrap
 
 STATUSES = ("running", "completed", "timeout", "diverged", "collided", "failed")
@@ -88,44 +88,58 @@ def _nees(cov, e0, e1, e2):
     return total
 
 
+#: rows of the ScoreKeeper's accumulator block (K, N)
+_ROWS = (
+    "s", "ticks", "xt_sq", "xt_max", "lag_sq", "head_sq", "est_sq", "est_max", "nees_sum",
+    "nees_count", "distance", "saturated", "peak_current", "min_battery", "last_x", "last_y",
+    "cross_track",
+)
+(
+    _S, _TICKS, _XT_SQ, _XT_MAX, _LAG_SQ, _HEAD_SQ, _EST_SQ, _EST_MAX, _NEES_SUM, _NEES_COUNT,
+    _DIST, _SAT, _PEAK_I, _MIN_VB, _LAST_X, _LAST_Y, _CROSS,
+) = range(len(_ROWS))
+
+
 @njit(cache=True)
 def _score_kernel(
-    active, s, d, pose, estimate, covariance, duty, current, battery, ref_heading, plan_s,
-    have_last, s_keep, ticks, xt_sq, xt_max, xt_store, lag_sq, head_sq, est_sq, est_max,
-    nees_sum, nees_count, distance, saturated, peak_current, min_battery, last_xy,
+    active, pose, estimate, covariance, duty, current, battery, path, ref_heading, plan_s,
+    have_last, ahead, acc, store,
 ):
     n, w = duty.shape
     has_cov = covariance.shape[0] == n
     for i in range(n):
         if not active[i]:
-            xt_store[i] = np.nan
-            last_xy[i, 0] = pose[i, 0]
-            last_xy[i, 1] = pose[i, 1]
+            store[i] = np.nan
+            acc[_LAST_X, i] = pose[i, 0]
+            acc[_LAST_Y, i] = pose[i, 1]
             continue
-        s_keep[i] = s[i]
-        ad = abs(d[i])
-        ticks[i] += 1
-        xt_sq[i] += d[i] * d[i]
-        xt_max[i] = max(xt_max[i], ad)
-        xt_store[i] = ad
-        lag_sq[i] += (plan_s - s[i]) ** 2
+        # progress-respecting projection of the true pose onto the path (planners.plan.project)
+        s, d = project_one(path[0], path[1], path[2], pose[i, 0], pose[i, 1], acc[_S, i], 0.05, ahead)
+        acc[_CROSS, i] = d
+        acc[_S, i] = s
+        ad = abs(d)
+        acc[_TICKS, i] += 1.0
+        acc[_XT_SQ, i] += d * d
+        acc[_XT_MAX, i] = max(acc[_XT_MAX, i], ad)
+        store[i] = ad
+        acc[_LAG_SQ, i] += (plan_s - s) ** 2
         dh = (pose[i, 2] - ref_heading + math.pi) % (2.0 * math.pi) - math.pi
-        head_sq[i] += dh * dh
+        acc[_HEAD_SQ, i] += dh * dh
         ex = estimate[i, 0] - pose[i, 0]
         ey = estimate[i, 1] - pose[i, 1]
         e2 = ex * ex + ey * ey
-        est_sq[i] += e2
-        est_max[i] = max(est_max[i], math.sqrt(e2))
+        acc[_EST_SQ, i] += e2
+        acc[_EST_MAX, i] = max(acc[_EST_MAX, i], math.sqrt(e2))
         if has_cov:
             eh = (estimate[i, 2] - pose[i, 2] + math.pi) % (2.0 * math.pi) - math.pi
             q = _nees(covariance[i], ex, ey, eh)
             if np.isfinite(q):
-                nees_sum[i] += q
-                nees_count[i] += 1
+                acc[_NEES_SUM, i] += q
+                acc[_NEES_COUNT, i] += 1.0
         if have_last:
-            distance[i] += math.hypot(pose[i, 0] - last_xy[i, 0], pose[i, 1] - last_xy[i, 1])
-        last_xy[i, 0] = pose[i, 0]
-        last_xy[i, 1] = pose[i, 1]
+            acc[_DIST, i] += math.hypot(pose[i, 0] - acc[_LAST_X, i], pose[i, 1] - acc[_LAST_Y, i])
+        acc[_LAST_X, i] = pose[i, 0]
+        acc[_LAST_Y, i] = pose[i, 1]
         sat = False
         peak = 0.0
         for j in range(w):
@@ -134,9 +148,9 @@ def _score_kernel(
         for j in range(current.shape[1]):
             peak = max(peak, abs(current[i, j]))
         if sat:
-            saturated[i] += 1.0
-        peak_current[i] = max(peak_current[i], peak)
-        min_battery[i] = min(min_battery[i], battery[i])
+            acc[_SAT, i] += 1.0
+        acc[_PEAK_I, i] = max(acc[_PEAK_I, i], peak)
+        acc[_MIN_VB, i] = min(acc[_MIN_VB, i], battery[i])
 
 
 class ScoreKeeper:
@@ -147,23 +161,22 @@ class ScoreKeeper:
     plan : Plan
     n : int — robots
     max_ticks : int — capacity of the per-tick cross-track store (for the p95)
+
+    The running sums and extremes are rows of one (K, N) block (``_ROWS``), each also an
+    attribute of its name (``xt_sq``, ``distance``, ...; counts are held as floats).
     """
 
     def __init__(self, plan: Plan, n: int, max_ticks: int):
         self.plan = plan
         self.n = n
-        z = np.zeros(n)
-        self.s = np.zeros(n)
-        self.ticks = np.zeros(n, dtype=np.int64)
-        self.xt_sq, self.xt_max, self.lag_sq, self.head_sq = z.copy(), z.copy(), z.copy(), z.copy()
-        self.est_sq, self.est_max, self.nees_sum = z.copy(), z.copy(), z.copy()
-        self.nees_count = np.zeros(n, dtype=np.int64)
-        self.distance, self.saturated = z.copy(), z.copy()
-        self.peak_current, self.min_battery = z.copy(), np.full(n, np.inf)
+        self._acc = np.zeros((len(_ROWS), n))
+        self._acc[_MIN_VB] = np.inf
+        for name, row in zip(_ROWS, self._acc):
+            setattr(self, name, row)
+        self._path = np.ascontiguousarray(np.stack([plan.path_x, plan.path_y, plan.path_s]))
         self.xt_abs = np.zeros((max_ticks, n), dtype=np.float32)
-        self.last_xy: np.ndarray | None = None
-        self._last_xy = np.zeros((n, 2))
-        self.cross_track = z.copy()
+        self._spare = np.empty(n, dtype=np.float32)
+        self._have_last = False
 
     def update(
         self,
@@ -178,22 +191,17 @@ class ScoreKeeper:
         battery: np.ndarray,
     ) -> None:
         """Fold in tick ``k`` for the robots where ``active`` (N,) is true."""
+        plan = self.plan
+        tick = min(int(t / plan.dt + 0.5), len(plan.t) - 1)
+        store = self.xt_abs[k] if k < self.xt_abs.shape[0] else self._spare
         # progress moves at most a few cm per tick: a 0.2 m look-ahead window keeps up with
         # 40 m/s and searches a fraction of the default window
-        s, d = project(self.plan, pose[:, :2], self.s, ahead=0.2)
-        self.cross_track = d
-        tick = min(int(round(t / self.plan.dt)), len(self.plan.t) - 1)
-        store = self.xt_abs[k] if k < self.xt_abs.shape[0] else np.empty(self.n, dtype=np.float32)
-        if covariance is None:
-            covariance = _NO_COVARIANCE
         _score_kernel(
-            active, s, d, pose, estimate, covariance, duty, current, battery,
-            float(self.plan.pose[tick, 2]), float(self.plan.s[tick]), self.last_xy is not None,
-            self.s, self.ticks, self.xt_sq, self.xt_max, store, self.lag_sq, self.head_sq,
-            self.est_sq, self.est_max, self.nees_sum, self.nees_count, self.distance,
-            self.saturated, self.peak_current, self.min_battery, self._last_xy,
+            active, pose, estimate, _NO_COVARIANCE if covariance is None else covariance, duty,
+            current, battery, self._path, float(plan.pose[tick, 2]), float(plan.s[tick]),
+            self._have_last, 0.2, self._acc, store,
         )
-        self.last_xy = self._last_xy
+        self._have_last = True
 
     def scorecards(
         self,
@@ -212,7 +220,7 @@ class ScoreKeeper:
         goal = self.plan.final_pose[0]
         cards = []
         for i in range(self.n):
-            m = max(int(self.ticks[i]), 1)
+            m = max(int(self.ticks[i]), 1)  # (counts are held as floats)
             xt = self.xt_abs[:, i]
             xt = xt[np.isfinite(xt)]
             dist = float(self.distance[i])
@@ -237,7 +245,7 @@ class ScoreKeeper:
                     "peak_penetration_m": float(penetration[i]),
                     "estimate_error_rms_m": math.sqrt(self.est_sq[i] / m),
                     "estimate_error_max_m": float(self.est_max[i]),
-                    "nees_mean": float(self.nees_sum[i] / self.nees_count[i]) if self.nees_count[i] else "",
+                    "nees_mean": float(self.nees_sum[i] / self.nees_count[i]) if self.nees_count[i] > 0 else "",
                     "distance_travelled_m": dist,
                     "odometry_drift_pct": drift,
                     "slip_energy_j": float(slip_energy[i]),

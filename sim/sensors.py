@@ -23,7 +23,8 @@ from numba import njit
 
 from planners import se2
 from planners.odometry import pod_matrix
-from planners.se2 import compose_one
+from planners.arrays import as_rows
+from planners.se2 import compose_one, log_one, wrap_one
 from planners.readings import Readings
 from sim.config_sensors import SensorSuite
 from sim.field import Field, ray_cast_kernel
@@ -33,12 +34,14 @@ _TWO_PI = 2.0 * np.pi
 
 
 @njit(cache=True)
-def _relative_kernel(prev, pose, out):
-    # between(prev, pose): the difference rotated by -heading (compose of a pure rotation)
+def _twist_kernel(prev, pose, out):
+    # log(between(prev, pose)): the difference rotated by -heading (compose of a pure
+    # rotation), then the constant twist of the arc joining them
     for i in range(pose.shape[0]):
-        out[i, 0], out[i, 1], out[i, 2] = compose_one(
+        x, y, h = compose_one(
             0.0, 0.0, -prev[i, 2], pose[i, 0] - prev[i, 0], pose[i, 1] - prev[i, 1], pose[i, 2]
         )
+        out[i, 0], out[i, 1], out[i, 2] = log_one(x, y, h)
 
 
 @njit(cache=True)
@@ -67,9 +70,12 @@ def _pod_kernel(twist, row, counts_per_m, scale, noise, skip, quantise, z, z0, u
 
 
 @njit(cache=True)
-def _imu_kernel(dtheta, due, interval, density, walk, bias, scale, z, z0, acc, out):
-    for i in range(dtheta.shape[0]):
-        acc[i] += dtheta[i]
+def _imu_kernel(prev, pose, due, interval, density, walk, bias, scale, z, z0, acc, out):
+    # the turn of the tick is the heading change wrap(h - h_prev), as in log(between(prev,
+    # pose)); prev moves on to pose
+    for i in range(pose.shape[0]):
+        acc[i] += wrap_one(pose[i, 2] - prev[i, 2])
+        prev[i, 0], prev[i, 1], prev[i, 2] = pose[i, 0], pose[i, 1], pose[i, 2]
         if not due:
             out[i] = np.nan
             continue
@@ -206,6 +212,8 @@ class Sensors:
             name: NoiseBlock(rngs, normals=nz, uniforms=nu) for name, (nz, nu) in self._draws.items()
         }
         self._prev = pose0.copy()
+        self._constants: dict = {}
+        self._no_draws = np.empty((n, 0))
         self._hist = np.repeat(pose0[None], self._lag + 1, axis=0)
         over = dict(per_robot or {})
         allowed = ("imu.bias", "imu.scale_error", "pods.scale_error")
@@ -233,8 +241,7 @@ class Sensors:
         # this sensor's draws for one sample; empty (N, 0) when it draws nothing
         block = self._blocks.get(name)
         if block is None:
-            empty = np.empty((self.n, 0))
-            return empty, empty
+            return self._no_draws, self._no_draws
         return block.take()
 
     def _due(self, k: int, rate: float | None) -> bool:
@@ -262,24 +269,23 @@ class Sensors:
             raise ValueError(
                 f"sensors: t must be the next control tick {self.t0 + k * self.dt!r}, got {t!r}"
             )
-        pose = np.ascontiguousarray(pose, dtype=np.float64)
         n, c = self.n, self.config
-        if pose.shape != (n, 3):
-            raise ValueError(f"sensors: pose must have shape ({n}, 3), got {pose.shape}")
+        if np.shape(pose) != (n, 3):
+            raise ValueError(f"sensors: pose must have shape ({n}, 3), got {np.shape(pose)}")
+        pose = as_rows(pose, (n, 3))
         self._k = k
-        self._hist[k % (self._lag + 1)] = pose
+        if c.fixes is not None:
+            self._hist[k % (self._lag + 1)] = pose
         out = Readings(t=float(t))
-        twist = None
-        if c.pods or c.imu is not None:
-            rel = np.empty((n, 3))
-            _relative_kernel(self._prev, pose, rel)
-            twist = se2.log(rel)
+        if c.pods:
+            twist = np.empty((n, 3))
+            _twist_kernel(self._prev, pose, twist)
         if c.encoders is not None:
-            wa = np.ascontiguousarray(wheel_angle, dtype=np.float64)
-            if wa.shape != (n, self.wheel_count):
+            if np.shape(wheel_angle) != (n, self.wheel_count):
                 raise ValueError(
-                    f"sensors: wheel_angle must have shape ({n}, {self.wheel_count}), got {wa.shape}"
+                    f"sensors: wheel_angle must have shape ({n}, {self.wheel_count}), got {np.shape(wheel_angle)}"
                 )
+            wa = as_rows(wheel_angle, (n, self.wheel_count))
             e = c.encoders
             out.encoder_counts = np.empty((n, self.wheel_count))
             z, _ = self._take("enc")
@@ -291,26 +297,38 @@ class Sensors:
             _pod_kernel(twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
                         self._pod_skip, self._pod_quant, z, 0, u, 0, self._pod_acc, out.pod_counts)
         if c.imu is not None:
-            self._read_imu(k, twist, out)
+            self._read_imu(k, pose, out)  # moves the previous pose on
+        elif c.pods:
+            self._prev[...] = pose
         if c.fixes is not None:
             self._read_fix(k, out)
         if c.range:
             self._read_range(k, pose, out)
-        self._prev = pose.copy()
         return out
 
-    def _read_imu(self, k: int, twist: np.ndarray, out: Readings) -> None:
+    def _read_imu(self, k: int, pose: np.ndarray, out: Readings) -> None:
         imu = self.config.imu
         due = k > 0 and self._due(k, imu.rate)
         interval = (k - self._imu_last) * self.dt if due else 0.0
-        z = self._take("imu")[0] if due else np.empty((self.n, 0))
+        z = self._take("imu")[0] if due else self._no_draws
         out.gyro_rate = np.empty(self.n)
-        _imu_kernel(np.ascontiguousarray(twist[:, 2]), due, max(interval, 1e-300), imu.rate_noise,
+        _imu_kernel(self._prev, pose, due, max(interval, 1e-300), imu.rate_noise,
                     imu.bias_walk, self._bias, self._imu_scale, z, 0, self._imu_acc, out.gyro_rate)
         if due:
             self._imu_last = k
-        out.imu_valid = np.full(self.n, due)
-        out.gyro_interval = np.full(self.n, interval)
+        out.imu_valid = self._constant(due, np.bool_)
+        out.gyro_interval = self._constant(interval, np.float64)
+
+    def _constant(self, value, dtype) -> np.ndarray:
+        # the same value for every robot, as a shared read-only (N,) array
+        key = (dtype, value)
+        arr = self._constants.get(key)
+        if arr is None:
+            if len(self._constants) > 64:
+                self._constants.clear()
+            arr = self._constants[key] = np.full(self.n, value, dtype=dtype)
+            arr.setflags(write=False)
+        return arr
 
     def _read_fix(self, k: int, out: Readings) -> None:
         f, n = self.config.fixes, self.n

@@ -20,6 +20,9 @@ from sim.physics import BLOCK, COLUMNS, G0, MAX_WHEELS, ROBOT_ROWS, WHEEL_ROWS, 
 from sim.contact import DAMPING_RATIO, STIFFNESS
 
 
+_F8 = np.dtype(np.float64)
+
+
 def _replace(robot: Robot, key: str, value: float) -> Robot:
     head, _, rest = key.partition(".")
     if rest:
@@ -199,6 +202,8 @@ class World:
         self._robot[0] = self.params[COLUMNS.index("battery_voltage")]
         self._wheel[WHEEL_ROWS.index("load")] = self.params[len(COLUMNS):].T
         self._parallel = n >= self.PARALLEL_MIN
+        # (N, W), or (N, 2) [left, right] for skid and differential
+        self._duty_shapes = {(n, w)} | ({(n, 2)} if self.geom.kind != "mecanum" else set())
         self.pose, self.velocity = self._body
         (
             self.wheel_speed, self.wheel_angle, self.motor_current, self.slip, _, _, self.wheel_load
@@ -233,6 +238,11 @@ class World:
 
     def _row(self, name: str) -> np.ndarray:
         return self._robot[ROBOT_ROWS.index(name)]
+
+    def status_rows(self) -> tuple[np.ndarray, np.ndarray]:
+        """Live views (N,) of the diverged flag (non-zero once diverged) and the contact count
+        (as floats), for per-tick checks without copies; do not write to them."""
+        return self._row("diverged"), self._row("contacts")
 
     @property
     def wheel_force(self) -> np.ndarray:
@@ -271,24 +281,24 @@ class World:
         Duty beyond [-1, 1] is clipped.
         """
         d = duty
-        if type(d) is not np.ndarray or d.dtype != np.float64 or d.ndim != 2 or not d.flags.c_contiguous:
+        if type(d) is not np.ndarray or d.dtype is not _F8 or not d.flags.c_contiguous:
             d = np.ascontiguousarray(np.atleast_2d(np.asarray(duty, dtype=np.float64)))
-        if d.shape[0] != self.n or not (d.shape[1] == self.geom.wheels or (d.shape[1] == 2 and self.geom.kind != "mecanum")):
+        if d.shape not in self._duty_shapes:
             self.geom.expand_duty(d)  # raises the one-line error for a wrong wheel count
             raise ValueError(f"duty must have shape ({self.n}, {self.geom.wheels}), got {d.shape}")
         if dt != self._dt:
             self._dt = dt
             self._steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
         steps = self._steps
-        args = (
-            self._body, self._wheel, self._robot, d, self.params, self.layout, self.segs,
-            self.patches, self.floor_scale, dt / steps, steps,
-        )
         # numba's thread pool is entered from the main thread only (its workqueue layer is
         # not re-entrant from other threads)
         if self._parallel and numba.get_num_threads() > 1 and threading.current_thread() is threading.main_thread():
-            step_kernel_parallel(*args)
+            kernel = step_kernel_parallel
         else:
-            step_kernel(*args)
+            kernel = step_kernel
+        kernel(
+            self._body, self._wheel, self._robot, d, self.params, self.layout, self.segs,
+            self.patches, self.floor_scale, dt / steps, steps,
+        )
         self._ticks += 1
         self.t = self._ticks * dt

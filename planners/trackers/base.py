@@ -16,11 +16,11 @@ and is built as ``Cls(chassis=<"mecanum" | "skid" | "differential">, **params_in
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Any, ClassVar, Protocol, runtime_checkable
+from typing import Any, ClassVar, NamedTuple, Protocol, runtime_checkable
 
 import numpy as np
 
+from planners.arrays import as_rows
 from planners.errors import ScenarioError, did_you_mean, format_value
 from planners.params import REQUIRED, Param
 from planners.plan import Plan
@@ -30,8 +30,7 @@ from planners.registry import Registry
 ALL_CHASSIS: tuple[str, ...] = ("mecanum", "skid", "differential")
 
 
-@dataclass(frozen=True, eq=False)
-class BodyCommand:
+class BodyCommand(NamedTuple):
     """What a tracker asks of the chassis for one tick.
 
     Attributes
@@ -43,6 +42,8 @@ class BodyCommand:
         the runner bypasses the wheel control and ``velocity``/``accel`` are zero
     target : ndarray, shape (N, 2), optional — the point the tracker steers to (lookahead
         point, nearest path point or reference position), field frame [m], for the viewer
+
+    A named tuple (immutable, and cheap to make every tick).
     """
 
     velocity: np.ndarray
@@ -169,16 +170,15 @@ class TrackerBase:
         self.n = 0
 
     def _check_batch(self, pose: np.ndarray, velocity: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        pose = np.ascontiguousarray(pose, dtype=np.float64)
-        velocity = np.ascontiguousarray(velocity, dtype=np.float64)
+        shape = (self.n, 3)
         if self.plan is None:
             raise RuntimeError(f"{type(self).__name__}.command: call reset(plan, n) first")
-        if pose.shape != (self.n, 3) or velocity.shape != (self.n, 3):
+        if np.shape(pose) != shape or np.shape(velocity) != shape:
             raise ValueError(
                 f"tracker {self.name}: pose and velocity must have shape ({self.n}, 3), "
-                f"got {pose.shape} and {velocity.shape}"
+                f"got {np.shape(pose)} and {np.shape(velocity)}"
             )
-        return pose, velocity
+        return as_rows(pose, shape), as_rows(velocity, shape)
 
 
 def reference(plan: Plan, t: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -188,10 +188,9 @@ def reference(plan: Plan, t: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]
 
     Returns
     -------
-    pose, velocity, accel : ndarray, each shape (3,)
+    pose, velocity, accel : ndarray, each shape (3,) — read-only views of the plan
     """
-    pose, vel, acc = plan.sample(np.array([float(t)]))
-    return pose[0], vel[0], acc[0]
+    return plan.at(t)
 
 
 #: the along-track speed gain shared by the path trackers (see :class:`AlongTrack`)

@@ -14,7 +14,7 @@ from planners.trackers.base import TRACKERS, BodyCommand, TrackerBase, reference
 
 
 @njit(cache=True)
-def _holonomic_kernel(pose, velocity, ref, ref_vel, ref_acc, k_xy, k_h, vel_out, acc_out):
+def _holonomic_kernel(pose, velocity, ref, ref_vel, ref_acc, k_xy, k_h, vel_out, acc_out, target_out):
     cd = np.cos(ref[2])
     sd = np.sin(ref[2])
     # plan velocity and acceleration in the field frame: p' = R v_b, p'' = R (a_b + w S v_b)
@@ -46,6 +46,8 @@ def _holonomic_kernel(pose, velocity, ref, ref_vel, ref_acc, k_xy, k_h, vel_out,
         acc_out[i, 0] = c * ax + s * ay + w * bvy
         acc_out[i, 1] = -s * ax + c * ay - w * bvx
         acc_out[i, 2] = alpha
+        target_out[i, 0] = ref[0]
+        target_out[i, 1] = ref[1]
 
 
 @TRACKERS.register("holonomic")
@@ -97,15 +99,7 @@ class Holonomic(TrackerBase):
         ref, ref_vel, ref_acc = reference(self.plan, t)
         vel = np.empty((self.n, 3))
         acc = np.empty((self.n, 3))
-        _holonomic_kernel(
-            pose,
-            velocity,
-            ref,
-            ref_vel,
-            ref_acc,
-            self.params["bandwidth"],
-            self.params["heading_bandwidth"],
-            vel,
-            acc,
-        )
-        return BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))
+        target = np.empty((self.n, 2))
+        p = self.params
+        _holonomic_kernel(pose, velocity, ref, ref_vel, ref_acc, p["bandwidth"], p["heading_bandwidth"], vel, acc, target)
+        return BodyCommand(velocity=vel, accel=acc, target=target)
