@@ -22,7 +22,8 @@ from planners.errors import SkidpadError
 from sim.batch_executors import single_threaded
 
 #: per-run scorecard figures a job returns
-FIGURES = ("cross_track_p95_m", "cross_track_rms_m", "end_position_error_m", "duration_s")
+FIGURES = ("cross_track_p95_m", "cross_track_rms_m", "cross_track_max_m", "end_position_error_m", "duration_s",
+           "collisions")
 
 
 @dataclass(frozen=True)
