@@ -8,8 +8,8 @@ import time
 
 from sim.scenario import bundled_dir
 
-#: pure pursuit on the loading-dock S-bend (15.5 s plan), mass varied per run
-OVERRIDES = ('tracker.kind="pure-pursuit"', 'run.vary.mass="5 %"')
+#: pure pursuit on the loading-dock S-bend (15.5 s plan), mass and grip varied per run
+SCENARIO = "dock-pursuit.toml"
 
 
 def _wall(path: str, candidates: int, runs: int, workers: int) -> tuple[float, int]:
@@ -17,12 +17,12 @@ def _wall(path: str, candidates: int, runs: int, workers: int) -> tuple[float, i
 
     start = time.perf_counter()
     out = tune(path, ["tracker.lookahead=0.1m..0.6m"], runs=runs, objective="cross_track_p95",
-               budget=candidates, overrides=OVERRIDES, workers=workers)
+               budget=candidates, workers=workers)
     return time.perf_counter() - start, len(out.candidates)
 
 
 def bench_tune(*, candidates: int = 30, runs: int = 100, workers: int | None = None, quick: bool = False) -> dict:
-    """Wall time of ``skidpad tune`` of ``tracker.lookahead`` on scenarios/aisle-s-skid.toml.
+    """Wall time of ``skidpad tune`` of ``tracker.lookahead`` on scenarios/dock-pursuit.toml.
 
     The same search runs on ``workers`` worker processes and, when that is more than one, once
     more in this process (``--workers 1``), so the pool's gain shows as a ratio (less sensitive
@@ -44,7 +44,7 @@ def bench_tune(*, candidates: int = 30, runs: int = 100, workers: int | None = N
     if quick:
         candidates, runs = 10, 20
     workers = workers or min(2, os.cpu_count() or 1)
-    path = str(bundled_dir("scenarios") / "aisle-s-skid.toml")
+    path = str(bundled_dir("scenarios") / SCENARIO)
     wall, evaluated = _wall(path, candidates, runs, workers)
     out = {
         f"tune_{candidates}x{runs}_wall_s": wall,

@@ -16,7 +16,6 @@
 from __future__ import annotations
 
 import math
-import textwrap
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -35,6 +34,7 @@ from planners.gains_heading import HeadingGain, gyro_tick_sigma, heading_kalman
 from planners.trackers import TRACKERS
 from sim.planning import geometry
 from sim.scenario import Scenario
+from sim.toml_files import comment_block
 from sim.units import to_si
 
 #: the wheel-loop constants written to ``[control]``
@@ -294,9 +294,4 @@ def fragment_text(g: ScenarioGains, safety: str) -> str:
     if "estimator" in g.fragment:
         lines.append("[estimator]: the heading Kalman filter with the IMU's noise figures; "
                      "leave it out to keep your estimator.")
-    head = "".join(
-        textwrap.fill(line, width=95, initial_indent="# ", subsequent_indent="# ",
-                      break_on_hyphens=False, break_long_words=False) + "\n"
-        for line in lines
-    )
-    return head + "\n" + tomli_w.dumps(g.fragment)
+    return comment_block(lines) + "\n" + tomli_w.dumps(g.fragment)
