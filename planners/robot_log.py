@@ -148,6 +148,29 @@ class RobotLog:
             return None
         return np.stack([self.columns[f"velocity_{w}"] for w in self.wheels], axis=1)
 
+    def wheel_angle(self) -> np.ndarray | None:
+        """Wheel shaft angle per wheel label, shape (T, W) [rad], from ``position_<w>`` when every
+        wheel has one, else integrated from ``velocity_<w>``; None when the log has neither.
+
+        Speeds are integrated by the trapezoid rule from 0 at the first row (the angle is then
+        relative to the start, which is all dead reckoning uses); empty cells are interpolated
+        linearly between the samples around them (held at either end).
+        """
+        if self.wheels and all(self.has(f"position_{w}") for w in self.wheels):
+            return self.wheel_position()
+        speed = self.wheel_velocity()
+        if speed is None:
+            return None
+        filled = np.empty_like(speed)
+        for j in range(speed.shape[1]):
+            ok = np.isfinite(speed[:, j])
+            if not ok.any():
+                raise LogError(f"{self.source}: column 'velocity_{self.wheels[j]}' has no numbers")
+            filled[:, j] = np.interp(self.t, self.t[ok], speed[ok, j])
+        # phi_k = sum over i < k of (v_i + v_{i+1}) / 2 (t_{i+1} - t_i)
+        steps = 0.5 * (filled[1:] + filled[:-1]) * np.diff(self.t)[:, None]
+        return np.vstack([np.zeros((1, filled.shape[1])), np.cumsum(steps, axis=0)])
+
     def pods(self) -> np.ndarray:
         """Tracking-wheel travel, shape (T, P) [m], pods in index order."""
         names = sorted((c for c in self.columns if c.startswith("pod_")), key=lambda c: int(c[4:]))
