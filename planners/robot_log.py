@@ -274,6 +274,30 @@ def _scale(source: str, name: str, quantity: str, unit: str, meta: dict[str, str
     return 1.0 / number("wheel_radius")  # m or m/s at the wheel rim -> shaft angle
 
 
+#: shortest median time between rows a robot log may have [s] (faster than 5 kHz is taken for a
+#: unit mistake; common practice, no source)
+MIN_MEDIAN_STEP = 2e-4
+
+
+def _check_spacing(source: str, header_row: int | None, unit: str, step: np.ndarray, max_gap: float) -> None:
+    """Refuse row spacings no robot log has (median under :data:`MIN_MEDIAN_STEP`, or every step
+    a gap): the time column's unit is probably wrong."""
+    where = f"{source}: line {header_row} (header), column 't [{unit}]'"
+    median = float(np.median(step))
+    if median < MIN_MEDIAN_STEP:
+        hint = "; if the times are in seconds, label the column 't [s]'" if unit == "ms" else ""
+        raise LogError(
+            f"{where}: rows are {median:.3g} s apart (median), {1.0 / median:.3g} Hz; a robot log must be "
+            f"sampled between {1.0 / max_gap:g} Hz and {1.0 / MIN_MEDIAN_STEP:g} Hz{hint}"
+        )
+    if float(np.min(step)) > max_gap:
+        hint = "; if the times are in milliseconds, label the column 't [ms]'" if unit == "s" else ""
+        raise LogError(
+            f"{where}: rows are at least {float(np.min(step)):.3g} s apart; a robot log must be sampled between "
+            f"{1.0 / max_gap:g} Hz and {1.0 / MIN_MEDIAN_STEP:g} Hz{hint}"
+        )
+
+
 def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> RobotLog:
     """Read and check a robot log CSV.
 
@@ -289,7 +313,9 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
     Raises
     ------
     LogError — unreadable file, bad header or unit, text in a number cell, a row of the wrong
-        length, time not increasing, a gap longer than ``max_gap``, or fewer than two rows
+        length, time not increasing, a median row spacing under :data:`MIN_MEDIAN_STEP` or over
+        ``max_gap`` (the time column's unit is wrong), a gap longer than ``max_gap``, or fewer
+        than two rows
     """
     source = str(path)
     try:
@@ -350,6 +376,7 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
         raise LogError(
             f"{source}: row {rows[i]}: time must increase, got t = {t[i]:g} s after {t[i - 1]:g} s"
         )
+    _check_spacing(source, header_row, header[names.index("t")][3], step, max_gap)
     gap = np.flatnonzero(step > max_gap)
     if gap.size:
         i = int(gap[0]) + 1
