@@ -32,7 +32,10 @@ column                       units allowed                meaning
 ``m`` for a wheel needs ``wheel_radius`` [m] to convert to shaft angle. Cells may be empty
 (read as NaN) in every column except ``t``: sensors sample at their own rates. A row whose
 time goes backwards, or a jump in time longer than ``max_gap`` (default 0.5 s), is an error,
-as is text in a number cell; every error names the file, row and column.
+as is text in a number cell; every error names the file, row and column. Rows closer than
+0.2 ms apart (median) or all further apart than ``max_gap`` are refused as a wrong time unit
+(seconds labelled ``[ms]`` or the reverse). A log may give wheel speeds (``velocity_<w>``)
+instead of positions: :meth:`RobotLog.wheel_angle` integrates them for dead reckoning.
 """
 
 from __future__ import annotations
