@@ -176,7 +176,7 @@ def _plugin_key_error(key: str, keys: dict[str, Param], scenario: Scenario, *, w
     own = [k.partition(".")[2] for k in keys if k.startswith(f"{table}.")]
     numeric = {n: [k for k, p in getattr(registry.get(n), "PARAMS", {}).items()
                    if p.dimension not in _NOT_NUMERIC and p.shape is None] for n in registry.names()}
-    close = difflib.get_close_matches(name, {k for ks in numeric.values() for k in ks}, n=1, cutoff=0.6)
+    close = difflib.get_close_matches(name, sorted({k for ks in numeric.values() for k in ks}), n=1, cutoff=0.6)
     wanted = name if any(name in ks for ks in numeric.values()) else (close[0] if close else None)
     have = [n for n, ks in numeric.items() if n != kind and wanted in ks]
     if wanted is None or wanted in own or not have:

@@ -135,7 +135,7 @@ def _as_log_error(log: RobotLog, kind: str, exc: ScenarioError) -> LogError:
     needs = [cols for key, cols in _SENSOR_COLUMNS.items() if key in text]
     source = re.search(r"for source '([^']+)'", text)
     how = f" with source {source.group(1)!r}" if source else ""
-    have = ", ".join(["t", *log.columns]) or "t"
+    have = ", ".join(["t", *log.columns])
     if needs:
         return LogError(
             f"{log.source}: line {log.header_row or 1} (header): estimator {kind!r}{how} needs "

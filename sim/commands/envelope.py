@@ -98,7 +98,8 @@ def run(args: argparse.Namespace) -> int:
         task = progress.add_task("envelope", total=steps[0] * steps[1])
         o = envelope(
             args.scenario, runs=args.runs, x=x, y=y, steps=steps, tolerance=args.tolerance,
-            max_cross_track=args.max_cross_track, overrides=args.overrides, workers=args.workers, csv_path=out / "envelope.csv",
+            max_cross_track=args.max_cross_track, overrides=args.overrides, workers=args.workers,
+            csv_path=out / "envelope.csv",
             on_point=lambda r: progress.update(task, advance=1),
         )
     envelope_plot(o.xs, o.ys, o.success, o.end_p95, o.within, x_label=o.x.label, y_label=o.y.label,
