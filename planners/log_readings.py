@@ -2,7 +2,8 @@
 
 This is what runs on the robot side of a replay: the same estimators that ran in the
 simulator (or on the robot) get the logged stream, with N = 1. Encoder positions are passed
-as shaft angle in radians (so the encoder's counts per revolution is 2 pi); pods as metres.
+as shaft angle in radians (so the encoder's counts per revolution is 2 pi), integrated from
+``velocity_<w>`` when the log has no positions (:meth:`RobotLog.wheel_angle`); pods as metres.
 A gyro sample is valid on the rows where ``yaw_rate`` is filled in, covering the time since
 the previous valid sample; a fix on the rows where ``fix_x fix_y fix_heading`` are filled in,
 describing the pose ``fix_latency`` seconds (log metadata, default 0) before the row's time.
@@ -32,7 +33,7 @@ def log_readings(log: RobotLog) -> Iterator[Readings]:
     ------
     Readings — N = 1; ``truth`` holds the logged true pose when the log has one
     """
-    position = log.wheel_position() if log.wheels and log.has(f"position_{log.wheels[0]}") else None
+    position = log.wheel_angle()
     if position is not None:
         # a missing sample holds the last position (encoders are read every tick on a robot)
         position = _hold(position)

@@ -32,7 +32,10 @@ column                       units allowed                meaning
 ``m`` for a wheel needs ``wheel_radius`` [m] to convert to shaft angle. Cells may be empty
 (read as NaN) in every column except ``t``: sensors sample at their own rates. A row whose
 time goes backwards, or a jump in time longer than ``max_gap`` (default 0.5 s), is an error,
-as is text in a number cell; every error names the file, row and column.
+as is text in a number cell; every error names the file, row and column. Rows closer than
+0.2 ms apart (median) or all further apart than ``max_gap`` are refused as a wrong time unit
+(seconds labelled ``[ms]`` or the reverse). A log may give wheel speeds (``velocity_<w>``)
+instead of positions: :meth:`RobotLog.wheel_angle` integrates them for dead reckoning.
 """
 
 from __future__ import annotations
@@ -148,6 +151,29 @@ class RobotLog:
             return None
         return np.stack([self.columns[f"velocity_{w}"] for w in self.wheels], axis=1)
 
+    def wheel_angle(self) -> np.ndarray | None:
+        """Wheel shaft angle per wheel label, shape (T, W) [rad], from ``position_<w>`` when every
+        wheel has one, else integrated from ``velocity_<w>``; None when the log has neither.
+
+        Speeds are integrated by the trapezoid rule from 0 at the first row (the angle is then
+        relative to the start, which is all dead reckoning uses); empty cells are interpolated
+        linearly between the samples around them (held at either end).
+        """
+        if self.wheels and all(self.has(f"position_{w}") for w in self.wheels):
+            return self.wheel_position()
+        speed = self.wheel_velocity()
+        if speed is None:
+            return None
+        filled = np.empty_like(speed)
+        for j in range(speed.shape[1]):
+            ok = np.isfinite(speed[:, j])
+            if not ok.any():
+                raise LogError(f"{self.source}: column 'velocity_{self.wheels[j]}' has no numbers")
+            filled[:, j] = np.interp(self.t, self.t[ok], speed[ok, j])
+        # phi_k = sum over i < k of (v_i + v_{i+1}) / 2 (t_{i+1} - t_i)
+        steps = 0.5 * (filled[1:] + filled[:-1]) * np.diff(self.t)[:, None]
+        return np.vstack([np.zeros((1, filled.shape[1])), np.cumsum(steps, axis=0)])
+
     def pods(self) -> np.ndarray:
         """Tracking-wheel travel, shape (T, P) [m], pods in index order."""
         names = sorted((c for c in self.columns if c.startswith("pod_")), key=lambda c: int(c[4:]))
@@ -251,6 +277,30 @@ def _scale(source: str, name: str, quantity: str, unit: str, meta: dict[str, str
     return 1.0 / number("wheel_radius")  # m or m/s at the wheel rim -> shaft angle
 
 
+#: shortest median time between rows a robot log may have [s] (faster than 5 kHz is taken for a
+#: unit mistake; common practice, no source)
+MIN_MEDIAN_STEP = 2e-4
+
+
+def _check_spacing(source: str, header_row: int | None, unit: str, step: np.ndarray, max_gap: float) -> None:
+    """Refuse row spacings no robot log has (median under :data:`MIN_MEDIAN_STEP`, or every step
+    a gap): the time column's unit is probably wrong."""
+    where = f"{source}: line {header_row} (header), column 't [{unit}]'"
+    median = float(np.median(step))
+    if median < MIN_MEDIAN_STEP:
+        hint = "; if the times are in seconds, label the column 't [s]'" if unit == "ms" else ""
+        raise LogError(
+            f"{where}: rows are {median:.3g} s apart (median), {1.0 / median:.3g} Hz; a robot log must be "
+            f"sampled between {1.0 / max_gap:g} Hz and {1.0 / MIN_MEDIAN_STEP:g} Hz{hint}"
+        )
+    if float(np.min(step)) > max_gap:
+        hint = "; if the times are in milliseconds, label the column 't [ms]'" if unit == "s" else ""
+        raise LogError(
+            f"{where}: rows are at least {float(np.min(step)):.3g} s apart; a robot log must be sampled between "
+            f"{1.0 / max_gap:g} Hz and {1.0 / MIN_MEDIAN_STEP:g} Hz{hint}"
+        )
+
+
 def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> RobotLog:
     """Read and check a robot log CSV.
 
@@ -266,7 +316,9 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
     Raises
     ------
     LogError — unreadable file, bad header or unit, text in a number cell, a row of the wrong
-        length, time not increasing, a gap longer than ``max_gap``, or fewer than two rows
+        length, time not increasing, a median row spacing under :data:`MIN_MEDIAN_STEP` or over
+        ``max_gap`` (the time column's unit is wrong), a gap longer than ``max_gap``, or fewer
+        than two rows
     """
     source = str(path)
     try:
@@ -327,6 +379,7 @@ def read_log(path: str | os.PathLike, *, max_gap: float = DEFAULT_MAX_GAP) -> Ro
         raise LogError(
             f"{source}: row {rows[i]}: time must increase, got t = {t[i]:g} s after {t[i - 1]:g} s"
         )
+    _check_spacing(source, header_row, header[names.index("t")][3], step, max_gap)
     gap = np.flatnonzero(step > max_gap)
     if gap.size:
         i = int(gap[0]) + 1

@@ -15,14 +15,16 @@
 
 from __future__ import annotations
 
+import json
 import math
-import textwrap
+import os
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
 from planners.control import Feedforward, WheelController, feedforward_from_motor
-from planners.errors import ScenarioError, SkidpadError
+from planners.errors import ScenarioError, SkidpadError, format_value
 from planners.estimators import ESTIMATORS
 from planners.gains import (
     bryson,
@@ -35,6 +37,7 @@ from planners.gains_heading import HeadingGain, gyro_tick_sigma, heading_kalman
 from planners.trackers import TRACKERS
 from sim.planning import geometry
 from sim.scenario import Scenario
+from sim.toml_files import comment_block
 from sim.units import to_si
 
 #: the wheel-loop constants written to ``[control]``
@@ -119,8 +122,45 @@ def motor_feedforward(sc: Scenario) -> Feedforward:
     )
 
 
-def wheel_gains(sc: Scenario, dt: float) -> WheelGains:
-    """The wheel loop's constants as :class:`WheelController` resolves them for this scenario.
+def read_constants(path: str | os.PathLike) -> tuple[dict[str, float], list[str]]:
+    """kS [V], kV [V s/rad], kA [V s^2/rad] from the JSON object that
+    ``skidpad identify --kind feedforward --json`` prints, and notes (its ``ka_separable: false``).
+
+    Raises
+    ------
+    ScenarioError
+        For an unreadable file, text that is not one JSON object, or a constant missing, not a
+        number or out of range (kS >= 0, kV > 0, kA > 0).
+    """
+    where = str(path)
+    try:
+        doc = json.loads(Path(path).read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise ScenarioError(f"{where}: cannot read constants ({exc.strerror or exc})") from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise ScenarioError(f"{where}: must be the JSON object `skidpad identify --kind feedforward --json` "
+                            f"prints; not JSON ({exc})") from None
+    if not isinstance(doc, dict):
+        raise ScenarioError(f"{where}: must be a JSON object with keys kS, kV, kA, got {format_value(doc)}")
+    out = {}
+    for key, low, unit in (("kS", ">= 0", "V"), ("kV", "> 0", "V s/rad"), ("kA", "> 0", "V s^2/rad")):
+        v = doc.get(key)
+        ok = isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) and (
+            v >= 0.0 if key == "kS" else v > 0.0)
+        if not ok:
+            got = "missing" if key not in doc else f"got {format_value(v)}"
+            raise ScenarioError(f"{where}: {key} must be a number {low} [{unit}], {got}")
+        out[key] = float(v)
+    notes = []
+    if doc.get("ka_separable") is False:
+        notes.append(f"{where} says kA was not separable (too little acceleration in the log): kA and "
+                     "the kP designed from it are uncertain; fit again with a step test")
+    return out, notes
+
+
+def wheel_gains(sc: Scenario, dt: float, *, given_as: str = "[control]") -> WheelGains:
+    """The wheel loop's constants as :class:`WheelController` resolves them for this scenario;
+    ``given_as`` names where the ``[control]`` kS, kV, kA came from (for the printout).
 
     Raises
     ------
@@ -139,7 +179,7 @@ def wheel_gains(sc: Scenario, dt: float) -> WheelGains:
             raise ScenarioError(f"{sc.source}: control.{key} differs between wheels, got {v.tolist()}")
         values[key] = float(v[0])
     given = {k: sc.control.get(k) is not None for k in CONTROL_KEYS}
-    source = {k: "[control]" if given[k] else "motor datasheet" for k in ("kS", "kV", "kA")}
+    source = {k: given_as if given[k] else "motor datasheet" for k in ("kS", "kV", "kA")}
     source["kP"] = "[control]" if given["kP"] else "discrete LQR"
     source["kI"] = "[control]" if given["kI"] else "SIMC"
     err, eff = wheel_loop_weights(
@@ -219,6 +259,7 @@ def scenario_gains(
     bandwidth: float | None = None,
     damping: float | None = None,
     speed: float | None = None,
+    given_as: str = "[control]",
 ) -> ScenarioGains:
     """Work out the gains of ``sc`` and the ``[control]``/``[tracker]``/``[estimator]`` fragment.
 
@@ -229,6 +270,7 @@ def scenario_gains(
         tracker's default bandwidth)
     damping : float, optional — unicycle damping in (0, 1) (default: the tracker's default)
     speed : float, optional — unicycle design speed [m/s] (default: ``route.max_speed``)
+    given_as : str — where the scenario's ``[control]`` kS, kV, kA came from (printout label)
 
     Raises
     ------
@@ -247,7 +289,7 @@ def scenario_gains(
         raise ScenarioError(f"--speed must be > 0 m/s, got {speed!r}")
     dt = 1.0 / sc.run.rate
     notes: list[str] = []
-    wheel = wheel_gains(sc, dt)
+    wheel = wheel_gains(sc, dt, given_as=given_as)
     uni = unicycle_gains(bandwidth=bandwidth, damping=damping, speed=speed)
     holo = holonomic_gains(bandwidth=bandwidth)
     kind = _tracker_kind(sc)
@@ -283,6 +325,7 @@ def fragment_text(g: ScenarioGains, safety: str) -> str:
     lines = [
         f"skidpad gains for {g.scenario.title} ({g.scenario.source}), values in SI.",
         safety,
+        "[control] kS, kV, kA: " + ", ".join(sorted({g.wheel.source[k] for k in ("kS", "kV", "kA")})) + ".",
         "Paste these tables over the scenario's own [control], [tracker]"
         + (" and [estimator]" if "estimator" in g.fragment else "") + " tables.",
         f"[tracker]: the {g.tracker_kind} tracker at {g.bandwidth:.4g} rad/s"
@@ -294,9 +337,4 @@ def fragment_text(g: ScenarioGains, safety: str) -> str:
     if "estimator" in g.fragment:
         lines.append("[estimator]: the heading Kalman filter with the IMU's noise figures; "
                      "leave it out to keep your estimator.")
-    head = "".join(
-        textwrap.fill(line, width=95, initial_indent="# ", subsequent_indent="# ",
-                      break_on_hyphens=False, break_long_words=False) + "\n"
-        for line in lines
-    )
-    return head + "\n" + tomli_w.dumps(g.fragment)
+    return comment_block(lines) + "\n" + tomli_w.dumps(g.fragment)

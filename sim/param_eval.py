@@ -19,9 +19,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from planners.errors import SkidpadError
+from sim.batch_executors import single_threaded
 
 #: per-run scorecard figures a job returns
-FIGURES = ("cross_track_p95_m", "cross_track_rms_m", "end_position_error_m", "duration_s")
+FIGURES = ("cross_track_p95_m", "cross_track_rms_m", "cross_track_max_m", "end_position_error_m", "duration_s",
+           "collisions")
 
 
 @dataclass(frozen=True)
@@ -105,7 +107,7 @@ class Evaluator:
             # as sim.batch_executors: forkserver where available, else spawn
             method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
             self._pool = ProcessPoolExecutor(
-                self.workers, mp_context=multiprocessing.get_context(method)
+                self.workers, mp_context=multiprocessing.get_context(method), initializer=single_threaded
             )
         return self
 

@@ -10,6 +10,7 @@ overrides in SI (:func:`override`).
 
 from __future__ import annotations
 
+import difflib
 from dataclasses import dataclass
 from typing import Any
 
@@ -142,6 +143,7 @@ def parse_axis(text: str, scenario: Scenario, *, where: str, option: str) -> Axi
         raise ScenarioError(f"{where}: {option} must be KEY=low..high, got {text!r}")
     keys = numeric_keys(scenario)
     if key not in keys:
+        _plugin_key_error(key, keys, scenario, where=where, option=option)
         hint = did_you_mean(key, keys)
         table = key.rpartition(".")[0]
         same = [k for k in keys if k.rpartition(".")[0] == table]
@@ -158,6 +160,33 @@ def parse_axis(text: str, scenario: Scenario, *, where: str, option: str) -> Axi
                     f"remove run.vary.{v.key} from the scenario or vary it by a percentage"
                 )
     return Axis(key=key, low=low, high=high, dimension=keys[key].dimension, start=start_value(scenario, key))
+
+
+def _plugin_key_error(key: str, keys: dict[str, Param], scenario: Scenario, *, where: str, option: str) -> None:
+    """Raise a plain error for ``tracker.<name>`` / ``estimator.<name>`` that the scenario's kind
+    does not have (naming the kinds that do); return for any other key."""
+    from planners.estimators import ESTIMATORS
+    from planners.trackers import TRACKERS
+
+    table, _, name = key.partition(".")
+    if table not in ("tracker", "estimator") or not name or "." in name:
+        return
+    registry = TRACKERS if table == "tracker" else ESTIMATORS
+    kind = getattr(scenario, table).kind
+    own = [k.partition(".")[2] for k in keys if k.startswith(f"{table}.")]
+    numeric = {n: [k for k, p in getattr(registry.get(n), "PARAMS", {}).items()
+                   if p.dimension not in _NOT_NUMERIC and p.shape is None] for n in registry.names()}
+    close = difflib.get_close_matches(name, sorted({k for ks in numeric.values() for k in ks}), n=1, cutoff=0.6)
+    wanted = name if any(name in ks for ks in numeric.values()) else (close[0] if close else None)
+    have = [n for n, ks in numeric.items() if n != kind and wanted in ks]
+    if wanted is None or wanted in own or not have:
+        return  # a misspelling of one of its own keys, or of no plug-in's: the generic message
+    spelled = "" if wanted == name else f" (did you mean {wanted!r}?)"
+    raise ScenarioError(
+        f"{where}: {option} {key}: the {kind} {table} has no key {name!r}{spelled} "
+        f"(its numeric keys: {', '.join(own) or 'none'}); choose {'a' if table == 'tracker' else 'an'} {table} "
+        f"that has it with --set {table}.kind={have[0]}" + (f" (or {', '.join(have[1:])})" if len(have) > 1 else "")
+    )
 
 
 def override(key: str, value: float) -> str:

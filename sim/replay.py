@@ -12,11 +12,12 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import re
 from dataclasses import dataclass
 
 import numpy as np
 
-from planners.errors import LogError
+from planners.errors import LogError, ScenarioError
 from planners.estimators import ESTIMATORS
 from planners.kinematics import ChassisGeometry
 from planners.log_readings import LOG_COUNTS_PER_REV, log_readings
@@ -98,7 +99,7 @@ def replay_sensors(log: RobotLog, scenario: Scenario | None) -> SensorSuite:
     scenario (or metadata, or the defaults)."""
     base = scenario.sensors if scenario is not None else SensorSuite()
     encoders = None
-    if log.wheels and log.has(f"position_{log.wheels[0]}"):
+    if log.wheel_angle() is not None:  # positions, or speeds integrated to positions
         encoders = Encoders(counts_per_rev=LOG_COUNTS_PER_REV, quantise=False)
     imu = None
     if log.has("yaw_rate"):
@@ -116,6 +117,31 @@ def replay_sensors(log: RobotLog, scenario: Scenario | None) -> SensorSuite:
         # the log holds pods in metres: one "count" per metre of travel
         pods = tuple(dataclasses.replace(p, counts_per_rev=2.0 * math.pi * p.radius, quantise=False) for p in base.pods)
     return SensorSuite(encoders=encoders, pods=pods, imu=imu, fixes=fixes)
+
+
+#: sensor tables an estimator may ask for -> the log columns that provide them
+_SENSOR_COLUMNS = {
+    "sensors.encoders": "wheel columns 'position_<w>' or 'velocity_<w>' for every wheel "
+                        "(w = left, right per side, or fl, fr, rl, rr)",
+    "sensors.imu": "the column 'yaw_rate [rad/s]' (or [deg/s])",
+    "sensors.fixes": "the columns 'fix_x [m]', 'fix_y [m]', 'fix_heading [rad]'",
+    "sensors.pods": "columns 'pod_0', 'pod_1', ... and --scenario with their [[sensors.pods]]",
+}
+
+
+def _as_log_error(log: RobotLog, kind: str, exc: ScenarioError) -> LogError:
+    """An estimator's complaint about a missing sensor, reworded for the log it was given."""
+    text = str(exc)
+    needs = [cols for key, cols in _SENSOR_COLUMNS.items() if key in text]
+    source = re.search(r"for source '([^']+)'", text)
+    how = f" with source {source.group(1)!r}" if source else ""
+    have = ", ".join(["t", *log.columns])
+    if needs:
+        return LogError(
+            f"{log.source}: line {log.header_row or 1} (header): estimator {kind!r}{how} needs "
+            f"{' and '.join(needs)}; the log has {have} (log format: planners/robot_log.py)"
+        )
+    return LogError(f"{log.source}: estimator {kind!r} cannot replay this log: {text}")
 
 
 def start_pose(log: RobotLog, given: tuple[float, float, float] | None) -> np.ndarray:
@@ -162,7 +188,13 @@ def replay(
     if field is None and scenario is not None:
         field = scenario.field
     dt = float(np.median(np.diff(log.t)))
-    est = cls(geometry=replay_geometry(log, scenario), sensors=replay_sensors(log, scenario), field=field, dt=dt, **params)
+    try:
+        est = cls(geometry=replay_geometry(log, scenario), sensors=replay_sensors(log, scenario), field=field,
+                  dt=dt, **params)
+    except LogError:
+        raise
+    except ScenarioError as exc:
+        raise _as_log_error(log, kind, exc) from None
     if getattr(cls, "NEEDS_TRUTH", False) and log.pose("true") is None:
         raise LogError(f"{log.source}: estimator {kind!r} needs true_x, true_y, true_heading columns")
     pose0 = start_pose(log, start)

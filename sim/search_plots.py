@@ -53,7 +53,7 @@ def tune_plot(outcome, path: str | os.PathLike):
 def envelope_plot(
     xs: Sequence[float],
     ys: Sequence[float],
-    completion: np.ndarray,
+    success: np.ndarray,
     end_p95: np.ndarray,
     ok: np.ndarray,
     *,
@@ -67,8 +67,9 @@ def envelope_plot(
     Parameters
     ----------
     xs, ys : grid values of the x axis (columns) and the y axis (rows)
-    completion, end_p95, ok : ndarray, shape (len(ys), len(xs)) — completion rate [0-1],
-        p95 end position error [m], cell meets the envelope's criteria
+    success, end_p95, ok : ndarray, shape (len(ys), len(xs)) — success rate [0-1] (runs that
+        completed without collision and stayed on the path), p95 end position error [m], cell
+        meets the envelope's criteria
     x_label, y_label : axis labels
     path : PNG file to write
 
@@ -89,7 +90,7 @@ def envelope_plot(
     for i in range(len(ys)):
         for j in range(len(xs)):
             err = "fail" if not np.isfinite(end_p95[i, j]) else f"{100 * end_p95[i, j]:.1f} cm"
-            ax.text(j, i, f"{100 * completion[i, j]:.0f}%\n{err}", ha="center", va="center", fontsize=7,
+            ax.text(j, i, f"{100 * success[i, j]:.0f}%\n{err}", ha="center", va="center", fontsize=7,
                     color="white" if not ok[i, j] else "black",
                     bbox=None if not ok[i, j] else {"facecolor": "white", "alpha": 0.6, "lw": 0})
             if ok[i, j]:
@@ -98,7 +99,7 @@ def envelope_plot(
     ax.set_yticks(range(len(ys)), [f"{y:.3g}" for y in ys])
     ax.set_xlabel(x_label)
     ax.set_ylabel(y_label)
-    ax.set_title(title or "completion and p95 end error (outlined: within the envelope)", fontsize=9)
+    ax.set_title(title or "success rate and p95 end error (outlined: within the envelope)", fontsize=9)
     fig.tight_layout()
     fig.savefig(path, dpi=100)
     plt.close(fig)

@@ -1,9 +1,12 @@
-"""Read TOML files with one-line errors: size limit, UTF-8, syntax with the line number."""
+"""Read TOML files with one-line errors (size limit, UTF-8, syntax with the line number); comment
+blocks for the TOML files skidpad writes."""
 
 from __future__ import annotations
 
 import os
+import textwrap
 import tomllib
+from collections.abc import Sequence
 from pathlib import Path
 
 from planners.errors import ScenarioError
@@ -35,3 +38,12 @@ def read_toml(path: str | os.PathLike) -> dict:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ScenarioError(f"{where}: TOML syntax error: {exc}") from None
+
+
+def comment_block(lines: Sequence[str], *, width: int = 95) -> str:
+    """Each of ``lines`` wrapped to ``width`` columns as ``# `` comment lines; "" for no lines."""
+    return "".join(
+        textwrap.fill(line, width=width, initial_indent="# ", subsequent_indent="# ",
+                      break_on_hyphens=False, break_long_words=False) + "\n"
+        for line in lines
+    )

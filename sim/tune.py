@@ -79,12 +79,20 @@ def statistic(scores: np.ndarray, name: str, axis: int = -1) -> np.ndarray | flo
     return np.percentile(scores, 95, axis=axis)
 
 
+#: the method :func:`improvement_interval` names when every run scored the same
+IDENTICAL = "none (every run scored the same)"
+
+
 def improvement_interval(start: np.ndarray, best: np.ndarray, name: str, *, seed: int = 0) -> tuple[float, float, float, str]:
     """Improvement ``objective(start) - objective(best)`` with a 95 % interval from paired runs.
 
     Mean objectives: mean of the paired differences +- t(0.975, N-1) standard errors (Student
     t; about 1.96 SE for large N). The p95 objective: a paired bootstrap percentile interval
     (runs resampled together for both candidates; :func:`scipy.stats.bootstrap`, 2000 resamples).
+
+    When every run of both candidates scored the same (runs that carry no randomness: no
+    ``[run.vary]`` and no noise that reaches the score) there is no spread to put an interval on:
+    low and high are nan and the method is :data:`IDENTICAL`.
 
     Returns
     -------
@@ -96,12 +104,12 @@ def improvement_interval(start: np.ndarray, best: np.ndarray, name: str, *, seed
     value = float(statistic(start, name) - statistic(best, name))
     if n < 2:
         return value, math.nan, math.nan, "none (one run)"
+    if np.all(start == start[0]) and np.all(best == best[0]):
+        return value, math.nan, math.nan, IDENTICAL
     if OBJECTIVES[name].statistic == "mean":
         d = start - best
         half = float(stats.t.ppf(0.975, n - 1) * np.std(d, ddof=1) / math.sqrt(n))
         return value, value - half, value + half, "paired mean difference +- t SE"
-    if np.all(start == start[0]) and np.all(best == best[0]):
-        return value, value, value, "paired bootstrap (all runs equal)"
     res = stats.bootstrap(
         (start, best), lambda a, b, axis=-1: statistic(a, name, axis) - statistic(b, name, axis),
         paired=True, vectorized=True, n_resamples=2000, method="percentile", rng=np.random.default_rng(seed),

@@ -17,9 +17,11 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
         description=(
             "Run N runs at every point of a grid of route speed scale (route.speed_scale: speeds "
             "x c, accelerations x c^2) and floor friction (robot.traction.mu), or of any two numeric "
-            "keys with --x/--y, the same runs at every point. A point is within the envelope when "
-            ">= 95% of its runs complete and the 95th percentile of end_position_error_m over the "
-            "runs is <= --tolerance. Prints the fastest such x for each y; writes DIR/envelope.csv "
+            "keys with --x/--y, the same runs at every point. A run succeeds when it completes, "
+            "touches no wall or obstacle and never strays more than --max-cross-track from its path. "
+            "A point is within the envelope when >= 95% of its runs succeed and the 95th percentile "
+            "of end_position_error_m over the runs is <= --tolerance. Prints, for each y, the largest "
+            "x such that it and every smaller x are within the envelope; writes DIR/envelope.csv "
             "and DIR/envelope.png."
         ),
         epilog=SAFETY,
@@ -32,6 +34,9 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--runs", type=int, default=20, help="runs per grid point (default 20)")
     p.add_argument("--steps", default="5x4", metavar="NXxNY", help="grid values along x and y (default 5x4)")
     p.add_argument("--tolerance", default="0.05 m", metavar="LENGTH", help="largest p95 end error (default 0.05 m)")
+    p.add_argument("--max-cross-track", metavar="LENGTH",
+                   help="largest distance from the path of a successful run (default: half the robot's "
+                        "footprint width, where its body stops covering the path)")
     p.add_argument("--workers", type=int, default=1, metavar="W", help="worker processes (default 1)")
     p.add_argument("--out", help="output folder (default: skidpad-out/<scenario name>-envelope)")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -53,6 +58,19 @@ def axes_from(args: argparse.Namespace) -> tuple[str, str]:
     return x, y
 
 
+def fastest_text(f, xs, option: str) -> str:
+    """One table cell: the fastest safe x, "at least x" at the top of the grid, or "none"."""
+    if f.x is None:
+        text = f"none (even {xs[0]:.3g} fails: lower {option})"
+    elif f.at_top:
+        text = f"at least {f.x:.3g}: widen {option}"
+    else:
+        text = f"{f.x:.3g}"
+    if f.above:
+        text += f" (also within above a failing value: {', '.join(f'{v:.3g}' for v in f.above)}; not trusted)"
+    return text
+
+
 def run(args: argparse.Namespace) -> int:
     from rich.console import Console
     from rich.progress import (
@@ -71,7 +89,7 @@ def run(args: argparse.Namespace) -> int:
     x, y = axes_from(args)
     steps = parse_steps(args.steps, where=args.scenario)
     check_inputs(args.scenario, runs=args.runs, x=x, y=y, tolerance=args.tolerance,
-                 overrides=args.overrides)  # errors before the progress bar
+                 overrides=args.overrides, max_cross_track=args.max_cross_track)  # errors before the progress bar
     out = Path(args.out or f"skidpad-out/{Path(args.scenario).stem}-envelope")
     console = Console()
     progress = Progress(TextColumn("grid points"), BarColumn(), MofNCompleteColumn(), TextColumn("left"),
@@ -80,18 +98,22 @@ def run(args: argparse.Namespace) -> int:
         task = progress.add_task("envelope", total=steps[0] * steps[1])
         o = envelope(
             args.scenario, runs=args.runs, x=x, y=y, steps=steps, tolerance=args.tolerance,
-            overrides=args.overrides, workers=args.workers, csv_path=out / "envelope.csv",
+            max_cross_track=args.max_cross_track, overrides=args.overrides, workers=args.workers,
+            csv_path=out / "envelope.csv",
             on_point=lambda r: progress.update(task, advance=1),
         )
-    envelope_plot(o.xs, o.ys, o.completion, o.end_p95, o.within, x_label=o.x.label, y_label=o.y.label,
+    envelope_plot(o.xs, o.ys, o.success, o.end_p95, o.within, x_label=o.x.label, y_label=o.y.label,
                   path=out / "envelope.png",
-                  title=f"{args.runs} runs per cell; outlined: >= 95% complete and p95 end error <= "
+                  title=f"{args.runs} runs per cell: % that arrived without collision within "
+                        f"{100 * o.max_cross_track:.3g} cm of the path; outlined: >= 95% and p95 end error <= "
                         f"{100 * o.tolerance:g} cm")
-    table = Table(title=f"fastest {o.x.key} within the envelope", title_justify="left")
+    option = "--x" if args.x else "--speed"
+    table = Table(title=f"fastest {o.x.key} such that it and every slower grid value are within the envelope",
+                  title_justify="left")
     table.add_column(o.y.key)
     table.add_column(o.x.key)
-    for yv, xv in reversed(o.fastest()):
-        table.add_row(f"{yv:.3g}", "none" if xv is None else f"{xv:.3g}")
+    for f in reversed(o.fastest()):
+        table.add_row(f"{f.y:.3g}", fastest_text(f, o.xs, option))
     console.print(table)
     console.print(f"wrote {out}/envelope.csv ({o.within.size} grid points), envelope.png")
     console.print(SAFETY)

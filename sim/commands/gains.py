@@ -16,8 +16,9 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
         "gains",
         help="work out wheel, tracker and heading-filter gains; write a TOML fragment",
         description=(
-            "From the scenario's own constants: wheel feedforward kS, kV, kA ([control], else the "
-            "motor datasheet), wheel-speed kP (discrete LQR, Bryson's weights) and kI (SIMC), the "
+            "From the scenario's own constants: wheel feedforward kS, kV, kA (--constants FILE.json "
+            "from `skidpad identify --kind feedforward --json`, else [control], else the motor "
+            "datasheet), wheel-speed kP (discrete LQR, Bryson's weights) and kI (SIMC), the "
             "unicycle and holonomic tracker gains for a natural frequency and damping, and the "
             "steady-state gain and heading sigma of the kalman estimator from the IMU's noise "
             "figures. Prints them and a [control]/[tracker]/[estimator] fragment to paste into a "
@@ -27,6 +28,9 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     )
     p.add_argument("scenario", nargs="?", help="scenario TOML file (default: the bundled workshop loop)")
     p.add_argument("--out", metavar="FILE.toml", help="write the fragment to this file")
+    p.add_argument("--constants", metavar="FILE.json",
+                   help="wheel feedforward kS, kV, kA from this file (what `skidpad identify --kind "
+                        "feedforward --json` prints), in place of the scenario's [control] values")
     p.add_argument("--bandwidth", metavar="HZ-or-1/s",
                    help="tracker natural frequency: a number in 1/s (rad/s) or e.g. '0.6 Hz' "
                         "(= 2 pi 0.6 rad/s); default: the holonomic tracker's default bandwidth")
@@ -45,15 +49,21 @@ def _vec(v) -> str:
 def run(args: argparse.Namespace) -> int:
     from planners.trackers import TRACKERS
     from sim.cli import SAFETY
-    from sim.gains import bryson_weights, fragment_text, parse_bandwidth, scenario_gains
+    from sim.gains import bryson_weights, fragment_text, parse_bandwidth, read_constants, scenario_gains
     from sim.scenario import default_scenario_path, load_scenario
     from sim.units import to_si
 
     path = args.scenario or str(default_scenario_path())
     bandwidth = None if args.bandwidth is None else parse_bandwidth(args.bandwidth)
     speed = None if args.speed is None else to_si(args.speed, "speed", where="--speed")
-    sc = load_scenario(path, args.overrides)
-    g = scenario_gains(sc, bandwidth=bandwidth, damping=args.damping, speed=speed)
+    overrides, given_as, notes = list(args.overrides), "[control]", []
+    if args.constants:
+        constants, notes = read_constants(args.constants)
+        overrides += [f"control.{k}={v!r}" for k, v in constants.items()]
+        given_as = f"identified, {Path(args.constants).name}"
+    sc = load_scenario(path, overrides)
+    g = scenario_gains(sc, bandwidth=bandwidth, damping=args.damping, speed=speed, given_as=given_as)
+    g.notes.extend(notes)
     w, v = g.wheel, g.wheel.values
     print(f"{sc.title}: {sc.robot.wheel_count} wheels, control at {1 / g.dt:g} Hz")
     units = {"kS": "V", "kV": "V s/rad", "kA": "V s^2/rad"}

@@ -5,10 +5,12 @@ from __future__ import annotations
 import argparse
 import json
 import os
+from collections.abc import Sequence
 from pathlib import Path
 
 from sim.commands import add_set_option
 from sim.scenario import Scenario, default_scenario_path, load_scenario
+from sim.toml_files import comment_block
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -39,11 +41,13 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(handler=run)
 
 
-def write_resolved(scenario: Scenario, seed: int, folder: Path, *, name: str = "scenario.toml") -> Path:
+def write_resolved(
+    scenario: Scenario, seed: int, folder: Path, *, name: str = "scenario.toml", comment: Sequence[str] = ()
+) -> Path:
     """Write the scenario as run (overrides applied, seed fixed) and a copy of its field.
 
     The copy makes the folder self-contained: ``skidpad run FOLDER/scenario.toml`` repeats
-    the run exactly anywhere.
+    the run exactly anywhere. ``comment`` lines head the file as ``#`` comments.
     """
     import tomli_w
 
@@ -53,7 +57,8 @@ def write_resolved(scenario: Scenario, seed: int, folder: Path, *, name: str = "
     doc["field"] = field_name
     (folder / field_name).write_bytes(Path(scenario.field.source).read_bytes())
     path = folder / name
-    path.write_text(tomli_w.dumps(doc))
+    head = comment_block(comment)
+    path.write_text(head + ("\n" if head else "") + tomli_w.dumps(doc))
     return path
 
 

@@ -63,7 +63,7 @@ def run(args: argparse.Namespace) -> int:
     from sim.param_space import override
     from sim.scenario import load_scenario
     from sim.search_plots import tune_plot
-    from sim.tune import OBJECTIVES, check_inputs, describe_objective, improvement_interval, tune
+    from sim.tune import IDENTICAL, OBJECTIVES, check_inputs, describe_objective, improvement_interval, tune
 
     check_inputs(args.scenario, args.param, runs=args.runs, objective=args.objective, budget=args.budget,
                  overrides=args.overrides, fail_penalty=args.fail_penalty)  # errors before the progress bar
@@ -98,13 +98,27 @@ def run(args: argparse.Namespace) -> int:
     console.print(f"objective: {describe_objective(args.objective)}")
     console.print(f"  start {_show(s.objective, unit)} (completed {100 * s.completion:.0f}%)   "
                   f"best {_show(b.objective, unit)} (completed {100 * b.completion:.0f}%)")
-    console.print(f"  improvement {_show(gain, unit)}, 95% interval [{lo:.4g}, {hi:.4g}] {unit} "
-                  f"({method}, same {args.runs} runs; measured on the runs the search chose on, so optimistic)")
+    if method == IDENTICAL:
+        if load_scenario(args.scenario, list(args.overrides)).run.vary:
+            why = "their [run.vary] draws do not change the score"
+        else:
+            why = ("the scenario has no [run.vary], so the runs carry no randomness; add one "
+                   "(e.g. mass = \"5 %\") to see how the gain holds across robots")
+        console.print(f"  improvement {_show(gain, unit)}, no interval: all {args.runs} runs of each candidate "
+                      f"scored the same ({why})", markup=False)
+    else:
+        console.print(f"  improvement {_show(gain, unit)}, 95% interval [{lo:.4g}, {hi:.4g}] {unit} "
+                      f"({method}, same {args.runs} runs; measured on the runs the search chose on, so optimistic)")
     best_set = [override(a.key, v) for a, v in zip(outcome.axes, b.values)]
     tuned = load_scenario(args.scenario, [*args.overrides, *best_set])
-    write_resolved(tuned, int(tuned.run.seed), out, name="tuned.toml")
+    what = ", ".join(f"{a.key} = {v:.6g}" + (f" {a.unit}" if a.unit else "") for a, v in zip(outcome.axes, b.values))
+    write_resolved(tuned, int(tuned.run.seed), out, name="tuned.toml", comment=[
+        f"skidpad tune of {args.scenario}: {what} (best of {len(outcome.candidates)} candidates x "
+        f"{args.runs} runs, {describe_objective(args.objective)} {_show(b.objective, unit)}); values in SI.",
+        SAFETY,
+    ])
     tune_plot(outcome, out / "tune.png")
-    console.print("best as --set: " + " ".join(f"--set {x}" for x in best_set))
+    console.print("best as --set: " + " ".join(f"--set {a.key}={v:.6g}" for a, v in zip(outcome.axes, b.values)))
     console.print(f"wrote {out}/tune.csv ({len(outcome.candidates)} candidates), tune.png, tuned.toml")
     console.print(SAFETY)
     return 0

@@ -77,8 +77,14 @@ def test_write_then_read_round_trip(tmp_path):
         (lambda s: s.replace("t [ms]", "time [ms]"), r"unknown column 'time'"),
         (lambda s: s.replace(", 0.5,\n", ", 0.5\n"), r"row 6 has 6 cells, the header has 7"),
         (lambda s: s.replace("t [ms]", "t"), r"header cell 't' must be 'name \[unit\]'"),
+        (lambda s: s.replace("\n10,", "\n0.01,").replace("\n20,", "\n0.02,"),
+         r"line 3 \(header\), column 't \[ms\]': rows are 1e-05 s apart \(median\), 1e\+05 Hz; a robot log must be "
+         r"sampled between 2 Hz and 5000 Hz; if the times are in seconds, label the column 't \[s\]'$"),
+        (lambda s: s.replace("t [ms]", "t [s]"),
+         r"column 't \[s\]': rows are at least 10 s apart; .*; if the times are in milliseconds, label the column 't \[ms\]'$"),
     ],
-    ids=["missing-wheel", "text", "backwards", "gap", "unit", "metadata", "typo", "no-time", "short-row", "no-unit"],
+    ids=["missing-wheel", "text", "backwards", "gap", "unit", "metadata", "typo", "no-time", "short-row", "no-unit",
+         "seconds-as-ms", "ms-as-seconds"],
 )
 def test_bad_logs_name_the_file_and_row(tmp_path, change, match):
     path = write(tmp_path, change(GOOD))

@@ -127,3 +127,61 @@ def test_help_carries_the_safety_caution(capsys):
     with pytest.raises(SystemExit):
         main(["gains", "--help"])
     assert " ".join(SAFETY.split()) in " ".join(capsys.readouterr().out.split())
+
+
+def test_identified_constants_round_trip_into_the_gains(tmp_path, capsys):
+    """identify --json -> gains --constants: the fragment's kS, kV, kA are the fitted ones and
+    kP, kI are designed from them."""
+    import json
+
+    from planners.control import WheelController
+    from tests.planners.ff_logs import KA, KS, KV, STEPS, write_ff_log
+
+    log = write_ff_log(tmp_path / "steps.csv", STEPS)
+    assert main(["identify", "--kind", "feedforward", str(log), "--json", "--no-plot"]) == 0
+    constants = tmp_path / "ff.json"
+    constants.write_text(capsys.readouterr().out)
+    fitted = json.loads(constants.read_text())
+    assert (fitted["kS"], fitted["kV"], fitted["kA"]) == pytest.approx((KS, KV, KA), rel=0.01)
+
+    source = SCENARIOS / "figure-eight-skid.toml"
+    code, stdout, _ = _gains(capsys, source, "--constants", constants)
+    assert code == 0
+    fragment = tomllib.loads(stdout[stdout.index("# skidpad gains"):stdout.rindex(SAFETY)])
+    for key in ("kS", "kV", "kA"):
+        assert fragment["control"][key] == pytest.approx(fitted[key], rel=1e-6)  # written to 6 digits
+    assert "feedforward (identified, ff.json)" in stdout
+    assert "[control] kS, kV, kA: identified, ff.json." in _comment_text(stdout)
+    sc = load_scenario(source)
+    ctl = WheelController(wheels=sc.robot.wheel_count, dt=1.0 / sc.run.rate, voltage=sc.robot.battery.voltage,
+                          kS=fitted["kS"], kV=fitted["kV"], kA=fitted["kA"])
+    for key in ("kP", "kI"):
+        assert fragment["control"][key] == pytest.approx(float(np.ravel(ctl.gains[key])[0]), rel=1e-5)
+    motor = Simulation(sc).wheels.gains  # the datasheet's constants differ: the file was used
+    assert abs(fragment["control"]["kV"] - float(np.ravel(motor["kV"])[0])) > 0.001
+
+
+@pytest.mark.parametrize(
+    "text,fragment",
+    [
+        ("not json", "must be the JSON object `skidpad identify --kind feedforward --json` prints; not JSON"),
+        ("[1, 2]", "must be a JSON object with keys kS, kV, kA, got [1, 2]"),
+        ('{"kS": 0.2, "kV": 0.3}', "kA must be a number > 0 [V s^2/rad], missing"),
+        ('{"kS": 0.2, "kV": "fast", "kA": 0.02}', "kV must be a number > 0 [V s/rad], got 'fast'"),
+        ('{"kS": -0.1, "kV": 0.3, "kA": 0.02}', "kS must be a number >= 0 [V], got -0.1"),
+    ],
+    ids=["text", "list", "missing", "string", "negative"],
+)
+def test_bad_constants_file_is_one_line(tmp_path, capsys, text, fragment):
+    path = tmp_path / "c.json"
+    path.write_text(text)
+    code, _, stderr = _gains(capsys, WORKSHOP, "--constants", path)
+    lines = stderr.strip().splitlines()
+    assert code == 2 and len(lines) == 1 and lines[0].startswith(f"skidpad gains: {path}: {fragment}")
+
+
+def test_constants_of_a_fit_that_could_not_separate_ka_carry_a_note(tmp_path, capsys):
+    path = tmp_path / "c.json"
+    path.write_text('{"kS": 0.2, "kV": 0.3, "kA": 0.02, "ka_separable": false}')
+    code, stdout, _ = _gains(capsys, WORKSHOP, "--constants", path)
+    assert code == 0 and "says kA was not separable" in stdout

@@ -76,3 +76,50 @@ def test_unknown_estimator_suggests(tmp_path, capsys):
     path = run_logged(Simulation(sc, runs=[0])).write(tmp_path / "loop.csv")
     assert main(["replay", str(path), "--estimator", "ekff"]) == 2
     assert "ekf" in capsys.readouterr().err
+
+
+def _drive(tmp_path, name, columns):
+    """A differential cart's log (r = 5 cm, track 40 cm): left wheel phi = 4 t + 0.5 t^2, right
+    phi = 5 t + 0.8 t^2 [rad] over 3 s at 100 Hz, with a gyro."""
+    from planners.robot_log import write_log
+
+    t = np.arange(301) * 0.01
+    cols = {"yaw_rate": ("rad/s", np.full_like(t, 0.01))}
+    for side, (a, b) in (("left", (4.0, 0.5)), ("right", (5.0, 0.8))):
+        if "position" in columns:
+            cols[f"position_{side}"] = ("rad", a * t + b * t**2)
+        if "velocity" in columns:
+            cols[f"velocity_{side}"] = ("rpm", (a + 2 * b * t) * 60 / (2 * np.pi))
+    return write_log(tmp_path / name, t, cols, meta={"wheel_radius": 0.05, "track": 0.4})
+
+
+def test_a_log_of_wheel_speeds_replays_like_the_same_log_of_positions(tmp_path):
+    """The speeds are linear in t, so their trapezoid integral is the logged position exactly."""
+    by_position = replay(read_log(_drive(tmp_path, "p.csv", ("position",))), "odometry")
+    by_speed = replay(read_log(_drive(tmp_path, "v.csv", ("velocity",))), "odometry")
+    # it went somewhere: 0.97 m of arc turning 0.71 rad left (wheel travel 0.825 m and 1.11 m)
+    assert by_speed.estimate[-1, 0] > 0.8 and by_speed.estimate[-1, 2] == pytest.approx(0.7125, abs=1e-6)
+    # the log rounds rpm to 9 significant digits
+    np.testing.assert_allclose(by_speed.estimate, by_position.estimate, atol=1e-7)
+
+
+def test_command_replays_a_speed_only_log_through_the_ekf(tmp_path, capsys):
+    path = _drive(tmp_path, "v.csv", ("velocity",))
+    assert main(["replay", str(path), "--estimator", "ekf", "--out", str(tmp_path / "out")]) == 0
+    assert "replayed 301 rows" in capsys.readouterr().out
+
+
+def test_a_sensor_the_log_lacks_is_named_in_log_terms(tmp_path, capsys):
+    from planners.robot_log import write_log
+
+    t = np.arange(50) * 0.01
+    path = write_log(tmp_path / "gyro.csv", t, {"yaw_rate": ("rad/s", np.zeros_like(t))},
+                     meta={"wheel_radius": 0.05, "track": 0.4})
+    assert main(["replay", str(path), "--estimator", "ekf"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1
+    assert err[0] == (
+        f"skidpad replay: {path}: line 3 (header): estimator 'ekf' with source 'encoders' needs wheel "
+        "columns 'position_<w>' or 'velocity_<w>' for every wheel (w = left, right per side, or fl, fr, rl, "
+        "rr); the log has t, yaw_rate (log format: planners/robot_log.py)"
+    )

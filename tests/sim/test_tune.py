@@ -15,6 +15,7 @@ from sim.cli import SAFETY, main
 from sim.param_eval import FIGURES, Job, JobResult, evaluate
 from sim.param_space import override
 from sim.tune import (
+    IDENTICAL,
     improvement_interval,
     population_for,
     read_tune_csv,
@@ -24,6 +25,7 @@ from sim.tune import (
 )
 
 BEND = Path(__file__).resolve().parent / "data" / "bend-skid.toml"
+SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
 RUNS = 5
 KEY = "tracker.lookahead"
 
@@ -99,6 +101,49 @@ def test_cli_prints_best_start_improvement_and_caution(tmp_path, capsys):
     assert code == 0
     assert "start 0.0" in text and "best 0.0" in text and "95% interval" in text
     assert " ".join(SAFETY.split()) in text
+
+
+def test_the_issue_example_runs_on_the_bundled_pure_pursuit_scenario(tmp_path, capsys):
+    """`skidpad tune SCENARIO --param tracker.lookahead=0.1m..0.6m` as written, on the bundled dock route."""
+    code = main(["tune", str(SCENARIOS / "dock-pursuit.toml"), "--param", "tracker.lookahead=0.1m..0.6m",
+                 "--runs", "2", "--budget", "5", "--out", str(tmp_path), "--no-progress"])
+    text = capsys.readouterr().out
+    assert code == 0
+    rows = read_tune_csv(tmp_path / "tune.csv")
+    best = min(rows, key=lambda r: r["objective"])
+    # the --set line is short (%g-like), tuned.toml exact
+    assert re.search(rf"--set tracker\.lookahead={best[KEY]:.6g}(\s|$)", text)
+    tuned = (tmp_path / "tuned.toml").read_text()
+    assert f"lookahead = {best[KEY]!r}" in tuned
+    comments = " ".join(line[2:] for line in tuned.splitlines() if line.startswith("# "))
+    assert " ".join(SAFETY.split()) in comments
+    assert main(["run", str(tmp_path / "tuned.toml"), "--out", str(tmp_path / "run"), "--no-plot"]) == 0
+
+
+def test_runs_without_randomness_get_no_interval(tmp_path, capsys):
+    code = main(["tune", str(SCENARIOS / "long-straight-skid.toml"), "--set", 'tracker.kind="pure-pursuit"',
+                 "--param", "tracker.lookahead=0.2m..0.4m", "--runs", "2", "--budget", "5",
+                 "--out", str(tmp_path), "--no-progress"])
+    text = " ".join(capsys.readouterr().out.split())
+    assert code == 0
+    assert "no interval: all 2 runs of each candidate scored the same" in text
+    assert "the scenario has no [run.vary], so the runs carry no randomness" in text
+    assert "95% interval" not in text
+
+
+def test_identical_runs_have_no_interval():
+    gain, lo, hi, method = improvement_interval(np.full(5, 0.04), np.full(5, 0.03), "cross_track_p95")
+    assert gain == pytest.approx(0.01) and math.isnan(lo) and math.isnan(hi) and method == IDENTICAL
+
+
+def test_a_key_the_tracker_kind_lacks_names_the_kinds_that_have_it(capsys):
+    code = main(["tune", str(SCENARIOS / "aisle-s-skid.toml"), "--param", "tracker.lookahead=0.1m..0.6m"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 2 and len(err) == 1
+    assert re.search(r"aisle-s-skid.toml: --param tracker.lookahead: the lqr tracker has no key 'lookahead' "
+                     r"\(its numeric keys: max_position_error, .*\); choose a tracker that has it with "
+                     r"--set tracker.kind=pure-pursuit$", err[0])
+    assert "did you mean" not in err[0]
 
 
 def _result(status, fig, timeout=12.0) -> JobResult:
