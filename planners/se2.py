@@ -26,7 +26,9 @@ SERIES_MAX = 0.5
 
 @njit(cache=True, inline="always")
 def wrap_one(angle: float) -> float:
-    """Wrap one angle to (-pi, pi]."""
+    """Wrap one angle to (-pi, pi] (an angle already there is returned as it is)."""
+    if -np.pi < angle <= np.pi:
+        return angle
     a = np.fmod(angle + np.pi, 2.0 * np.pi)
     if a <= 0.0:
         a += 2.0 * np.pi

@@ -16,7 +16,7 @@ import numpy as np
 from numba import njit
 
 from planners.plan import Plan, project_one
-from planners.se2 import wrap
+from planners.se2 import wrap, wrap_one
 
 STATUSES = ("running", "completed", "timeout", "diverged", "collided", "failed")
 
@@ -123,7 +123,7 @@ def _score_kernel(
         acc[_XT_MAX, i] = max(acc[_XT_MAX, i], ad)
         store[i] = ad
         acc[_LAG_SQ, i] += (plan_s - s) ** 2
-        dh = (pose[i, 2] - ref_heading + math.pi) % (2.0 * math.pi) - math.pi
+        dh = wrap_one(pose[i, 2] - ref_heading)
         acc[_HEAD_SQ, i] += dh * dh
         ex = estimate[i, 0] - pose[i, 0]
         ey = estimate[i, 1] - pose[i, 1]
@@ -131,13 +131,15 @@ def _score_kernel(
         acc[_EST_SQ, i] += e2
         acc[_EST_MAX, i] = max(acc[_EST_MAX, i], math.sqrt(e2))
         if has_cov:
-            eh = (estimate[i, 2] - pose[i, 2] + math.pi) % (2.0 * math.pi) - math.pi
+            eh = wrap_one(estimate[i, 2] - pose[i, 2])
             q = _nees(covariance[i], ex, ey, eh)
             if np.isfinite(q):
                 acc[_NEES_SUM, i] += q
                 acc[_NEES_COUNT, i] += 1.0
         if have_last:
-            acc[_DIST, i] += math.hypot(pose[i, 0] - acc[_LAST_X, i], pose[i, 1] - acc[_LAST_Y, i])
+            dx = pose[i, 0] - acc[_LAST_X, i]
+            dy = pose[i, 1] - acc[_LAST_Y, i]
+            acc[_DIST, i] += math.sqrt(dx * dx + dy * dy)
         acc[_LAST_X, i] = pose[i, 0]
         acc[_LAST_Y, i] = pose[i, 1]
         sat = False
@@ -177,6 +179,10 @@ class ScoreKeeper:
         self.xt_abs = np.zeros((max_ticks, n), dtype=np.float32)
         self._spare = np.empty(n, dtype=np.float32)
         self._have_last = False
+        # the projection's look-ahead window: four ticks at twice the plan's top speed (the
+        # robot's progress in one tick is far less), at least 5 cm, at most 20 cm
+        top = float(np.max(np.hypot(plan.velocity[:, 0], plan.velocity[:, 1]), initial=0.0))
+        self._ahead = min(0.2, max(0.05, 8.0 * top * plan.dt))
 
     def update(
         self,
@@ -194,12 +200,10 @@ class ScoreKeeper:
         plan = self.plan
         tick = min(int(t / plan.dt + 0.5), len(plan.t) - 1)
         store = self.xt_abs[k] if k < self.xt_abs.shape[0] else self._spare
-        # progress moves at most a few cm per tick: a 0.2 m look-ahead window keeps up with
-        # 40 m/s and searches a fraction of the default window
         _score_kernel(
             active, pose, estimate, _NO_COVARIANCE if covariance is None else covariance, duty,
             current, battery, self._path, float(plan.pose[tick, 2]), float(plan.s[tick]),
-            self._have_last, 0.2, self._acc, store,
+            self._have_last, self._ahead, self._acc, store,
         )
         self._have_last = True
 
