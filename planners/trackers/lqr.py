@@ -40,10 +40,25 @@ def error_model(speed: float, turn_rate: float = 0.0) -> tuple[np.ndarray, np.nd
 
 
 @njit(cache=True)
-def _lqr_kernel(pose, ref, vd, wd, gains, vel_out):
+def _scheduled_gain(speeds, gains, speed):
+    # linear interpolation of the (2, 3) gains in the design speed, clamped beyond the grid
+    j = min(max(np.searchsorted(speeds, speed) - 1, 0), speeds.shape[0] - 2)
+    u = min(max((speed - speeds[j]) / (speeds[j + 1] - speeds[j]), 0.0), 1.0)
+    return (1.0 - u) * gains[j] + u * gains[j + 1]
+
+
+@njit(cache=True)
+def _lqr_kernel(pose, ref, ref_vel, ref_acc, speeds, schedule, vel_out, acc_out, target_out):
+    vd, wd = ref_vel[0], ref_vel[2]
+    gains = _scheduled_gain(speeds, schedule, vd)
     c = np.cos(ref[2])
     s = np.sin(ref[2])
     for i in range(pose.shape[0]):
+        acc_out[i, 0] = ref_acc[0]
+        acc_out[i, 1] = 0.0
+        acc_out[i, 2] = ref_acc[2]
+        target_out[i, 0] = ref[0]
+        target_out[i, 1] = ref[1]
         dx = pose[i, 0] - ref[0]
         dy = pose[i, 1] - ref[1]
         ex = c * dx + s * dy
@@ -126,15 +141,12 @@ class LQR(TrackerBase):
         p = self.params
         top = max(float(np.max(np.abs(plan.velocity[:, 0]), initial=0.0)), 2.0 * p["min_speed"])
         pos = np.linspace(p["min_speed"], top, int(p["schedule_points"]))
-        self.schedule_speeds = np.concatenate([-pos[::-1], pos])
-        self.schedule_gains = np.stack([self.design(v, plan.dt)[2] for v in self.schedule_speeds])
+        self.schedule_speeds = np.ascontiguousarray(np.concatenate([-pos[::-1], pos]))
+        self.schedule_gains = np.ascontiguousarray(np.stack([self.design(v, plan.dt)[2] for v in self.schedule_speeds]))
 
     def gain(self, speed: float) -> np.ndarray:
         """Scheduled gain at plan speed ``speed``, shape (2, 3) (clamped beyond the grid)."""
-        g = self.schedule_speeds
-        j = int(np.clip(np.searchsorted(g, speed) - 1, 0, g.shape[0] - 2))
-        u = float(np.clip((speed - g[j]) / (g[j + 1] - g[j]), 0.0, 1.0))
-        return (1.0 - u) * self.schedule_gains[j] + u * self.schedule_gains[j + 1]
+        return _scheduled_gain(self.schedule_speeds, self.schedule_gains, float(speed))
 
     def halving_time(self, speed: float) -> float:
         """Time within which an initial error halves at plan speed ``speed``: ``2 / sigma`` [s]."""
@@ -148,13 +160,10 @@ class LQR(TrackerBase):
         pose, velocity = self._check_batch(pose, velocity)
         ref, ref_vel, ref_acc = reference(self.plan, t)
         vel = np.empty((self.n, 3))
-        _lqr_kernel(
-            pose, ref, float(ref_vel[0]), float(ref_vel[2]), self.gain(float(ref_vel[0])), vel
-        )
-        acc = np.zeros((self.n, 3))
-        acc[:, 0] = ref_acc[0]
-        acc[:, 2] = ref_acc[2]
-        cmd = BodyCommand(velocity=vel, accel=acc, target=np.tile(ref[:2], (self.n, 1)))
+        acc = np.empty((self.n, 3))
+        target = np.empty((self.n, 2))
+        _lqr_kernel(pose, ref, ref_vel, ref_acc, self.schedule_speeds, self.schedule_gains, vel, acc, target)
+        cmd = BodyCommand(velocity=vel, accel=acc, target=target)
         # at rest the lateral error is not controllable: the final alignment takes over
         p = self.params
         return settle(cmd, t, self.plan, pose, radius=p["settle_radius"], gain=p["settle_gain"])
