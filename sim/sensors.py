@@ -8,7 +8,7 @@ so encoders see wheel spin as on a real robot).
 Between ticks the body is taken to move along the constant-twist arc joining the two
 poses (``log`` of the relative pose); pods and the gyro measure that arc exactly, before
 their own errors. Every random number of robot k comes from ``rngs[k]``, drawn in
-blocks per sensor (:mod:`sim.sensors_noise`). Sample schedules are the same for every
+blocks shared by the sensors (:mod:`sim.sensors_noise`). Sample schedules are the same for every
 robot: a sensor with rate f has sample instants ``j / f`` after the start and reports at
 the first tick at or after each. Latency rounds to a whole control tick.
 """
@@ -208,9 +208,7 @@ class Sensors:
         self.t0 = float(t0)
         self._k = -1
         rngs = check_generators(rngs)
-        self._blocks = {
-            name: NoiseBlock(rngs, normals=nz, uniforms=nu) for name, (nz, nu) in self._draws.items()
-        }
+        self._noise = NoiseBlock(rngs, self._draws)
         self._prev = pose0.copy()
         self._constants: dict = {}
         self._no_draws = np.empty((n, 0))
@@ -239,10 +237,9 @@ class Sensors:
     # ------------------------------------------------------------------ schedule
     def _take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
         # this sensor's draws for one sample; empty (N, 0) when it draws nothing
-        block = self._blocks.get(name)
-        if block is None:
+        if name not in self._draws:
             return self._no_draws, self._no_draws
-        return block.take()
+        return self._noise.take(name)
 
     def _due(self, k: int, rate: float | None) -> bool:
         if rate is None or k == 0:
@@ -274,6 +271,7 @@ class Sensors:
             raise ValueError(f"sensors: pose must have shape ({n}, 3), got {np.shape(pose)}")
         pose = as_rows(pose, (n, 3))
         self._k = k
+        self._noise.advance()
         if c.fixes is not None:
             self._hist[k % (self._lag + 1)] = pose
         out = Readings(t=float(t))

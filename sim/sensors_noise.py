@@ -3,13 +3,13 @@
 Robot k draws every sensor random number from its own ``numpy.random.Generator``, so its
 readings are bit-identical whether it runs alone or in a batch of any size. Calling N
 generators at every sample would cost more than the draws themselves, so each sensor
-keeps a :class:`NoiseBlock`: each robot draws :data:`BLOCK` samples' worth at once, and the
-block is handed out one sample at a time, only when that sensor samples (a 30 Hz fix
-does not pay for draws at the 200 Hz control rate).
+share a :class:`NoiseBlock`: each robot draws :data:`BLOCK` ticks' worth for every sensor
+at once (two generator calls per robot and refill), and the block is handed out one tick at
+a time.
 
-When a block runs out is decided by the sample schedule alone, which is the same for every
-robot; the block size is a constant, never derived from N. So each robot consumes its
-stream in the same order alone or in any batch.
+A block runs out every BLOCK control ticks, the same for every robot; the block size is a
+constant, never derived from N. So each robot consumes its stream in the same order alone or
+in any batch.
 """
 
 from __future__ import annotations
@@ -33,35 +33,47 @@ def check_generators(rngs: Sequence[np.random.Generator]) -> list[np.random.Gene
 
 
 class NoiseBlock:
-    """Blocks of standard normals and uniforms per robot, for one sensor.
+    """Blocks of standard normals and uniforms per robot, shared by the sensors of a suite.
 
     Parameters
     ----------
-    rngs : list of numpy.random.Generator, length N — one stream per robot (shared with the
-        robot's other sensors)
-    normals, uniforms : int — draws of each kind per robot per sample
+    rngs : list of numpy.random.Generator, length N — one stream per robot
+    layout : dict of str -> (int, int) — each sensor's normals and uniforms per sample
 
-    Each refill draws, for each robot in turn, ``standard_normal((BLOCK, normals))`` and
-    then ``random((BLOCK, uniforms))``.
+    The block holds one row per control tick: sensor ``s`` owns a fixed range of the row's
+    columns and uses them on the ticks it samples (the draws of the other ticks are left
+    unused). Each refill, every :data:`BLOCK` ticks, draws for each robot in turn
+    ``standard_normal((BLOCK, normals))`` and then ``random((BLOCK, uniforms))``, the
+    normals and uniforms of every sensor at once: two calls per robot and refill, whatever
+    the sensors.
     """
 
-    def __init__(self, rngs: list[np.random.Generator], *, normals: int, uniforms: int = 0) -> None:
+    def __init__(self, rngs: list[np.random.Generator], layout: dict[str, tuple[int, int]]) -> None:
         self._rngs = rngs
         n = len(rngs)
-        self.normals = int(normals)
-        self.uniforms = int(uniforms)
-        self._used = 0
-        # (BLOCK, N, K): one sample's draws for all robots are one contiguous (N, K) slab
-        self._z = np.empty((BLOCK, n, self.normals))
-        self._u = np.empty((BLOCK, n, self.uniforms))
+        self._cols: dict[str, tuple[slice, slice]] = {}
+        nz = nu = 0
+        for name, (a, b) in layout.items():
+            self._cols[name] = (slice(nz, nz + int(a)), slice(nu, nu + int(b)))
+            nz += int(a)
+            nu += int(b)
+        self.normals, self.uniforms = nz, nu
+        self._tick = -1
+        # (BLOCK, N, K): one tick's draws for all robots are one contiguous (N, K) slab
+        self._z = np.empty((BLOCK, n, nz))
+        self._u = np.empty((BLOCK, n, nu))
 
-    def take(self) -> tuple[np.ndarray, np.ndarray]:
-        """The next sample's draws: normals (N, normals), uniforms (N, uniforms)."""
-        row = self._used % BLOCK
-        if row == 0:
+    def advance(self) -> None:
+        """Move on to the next control tick's row (refilling every BLOCK ticks)."""
+        self._tick += 1
+        if self._tick % BLOCK == 0:
             self._refill()
-        self._used += 1
-        return self._z[row], self._u[row]
+
+    def take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
+        """Sensor ``name``'s draws of this tick: normals (N, normals), uniforms (N, uniforms)."""
+        row = self._tick % BLOCK
+        z, u = self._cols[name]
+        return self._z[row][:, z], self._u[row][:, u]
 
     def _refill(self) -> None:
         for i, g in enumerate(self._rngs):
