@@ -7,6 +7,7 @@ import tempfile
 import time
 
 from sim.batch import run_batch
+from sim.peak_memory import PeakMemory
 from sim.runner import Simulation
 from sim.scenario import bundled_dir, load_scenario
 
@@ -15,16 +16,20 @@ from sim.scenario import bundled_dir, load_scenario
 OVERRIDES = ("tracker.kind=lqr", "estimator.kind=ekf")
 
 
-def bench_batch(*, runs: int = 1000, chunk: int = 250, singles: int = 5, quick: bool = False) -> dict:
+def bench_batch(*, runs: int = 1000, chunk: int = 250, singles: int = 5, quick: bool = False, memory_runs: int = 10000) -> dict:
     """Wall time of ``runs`` runs with the process executor on every core.
 
     The sequential estimate times ``singles`` single-robot runs (each a fresh Simulation, as
     ``skidpad run`` would do) and scales them to ``runs``.
 
+    Then (unless ``quick``) the peak resident memory of a ``memory_runs``-run batch of the same
+    configuration, the parent and its workers together (:mod:`sim.peak_memory`).
+
     Returns
     -------
-    dict with batch_<runs>_wall_s [s], batch_speedup_vs_sequential [-] and
-    batch_robot_s_per_s (simulated robot-seconds per wall second)
+    dict with batch_<runs>_wall_s [s], batch_speedup_vs_sequential [-],
+    batch_robot_s_per_s (simulated robot-seconds per wall second) and
+    batch_<memory_runs>_peak_memory_mb [MiB]
     """
     if quick:
         runs, chunk, singles = 100, 50, 2
@@ -44,9 +49,17 @@ def bench_batch(*, runs: int = 1000, chunk: int = 250, singles: int = 5, quick: 
         )
         wall = time.perf_counter() - start
     sim_s = sum(r["duration_s"] for r in outcome.rows if isinstance(r["duration_s"], float))
-    return {
+    out = {
         f"batch_{runs}_wall_s": wall,
         "batch_speedup_vs_sequential": sequential / wall,
         "batch_robot_s_per_s": sim_s / wall,
         "batch_jobs": jobs,
     }
+    if not quick:
+        with PeakMemory() as peak, tempfile.TemporaryDirectory() as out_dir:
+            run_batch(
+                [path], out=out_dir, runs=memory_runs, chunk=256, overrides=OVERRIDES,
+                executor="processes" if jobs > 1 else "serial", jobs=jobs,
+            )
+        out[f"batch_{memory_runs}_peak_memory_mb"] = peak.peak_bytes / 2**20
+    return out
