@@ -26,7 +26,8 @@ def bench_robot(chassis: str):
 def bench_physics(*, quick: bool = False) -> dict:
     """Robot-substeps per second for N = 1, 100, 1000, 10000 for each chassis.
 
-    Each call of ``advance`` runs 5 sub-steps (a 5 ms control tick at the 1 ms sub-step).
+    Each call of ``advance`` runs 5 sub-steps (a 5 ms control tick at the 1 ms sub-step); the
+    figure is the best of five timings, since other work on a shared machine only slows it.
     """
     sizes = (1, 100, 1000) if quick else (1, 100, 1000, 10000)
     out: dict = {}
@@ -37,9 +38,11 @@ def bench_physics(*, quick: bool = False) -> dict:
             duty = np.tile(np.linspace(-0.8, 0.9, world.geom.wheels), (n, 1))
             world.advance(duty, 0.005)  # compile / warm
             ticks = max(3, int(20000 / n)) if not quick else max(2, int(4000 / n))
-            start = time.perf_counter()
-            for _ in range(ticks):
-                world.advance(duty, 0.005)
-            wall = time.perf_counter() - start
+            wall = float("inf")
+            for _ in range(1 if quick else 5):  # the best of five: other work on a shared machine
+                start = time.perf_counter()
+                for _ in range(ticks):
+                    world.advance(duty, 0.005)
+                wall = min(wall, time.perf_counter() - start)
             out[f"{chassis}_n{n}"] = ticks * 5 * n / wall
     return out

@@ -155,7 +155,7 @@ class World:
 
     #: batches at least this large spread the physics over numba's threads (below it the
     #: threads cost more than they save; measured with ``skidpad bench physics``)
-    PARALLEL_MIN = 2 * BLOCK
+    PARALLEL_MIN = BLOCK + 1
 
     def __init__(
         self,
