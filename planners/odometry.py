@@ -150,7 +150,7 @@ def pod_twist_maps(
 @njit(cache=True)
 def _odometry_kernel(
     pose, counts, prev, gain, couple, own_heading, use_imu, gyro, valid, interval,
-    imu_heading, since, last_rate, dt,
+    imu_heading, since, last_rate, dt, step,
 ):
     n, k = counts.shape
     for i in range(n):
@@ -176,6 +176,7 @@ def _odometry_kernel(
             dx += couple[0] * dth
             dy += couple[1] * dth
         ex, ey, eh = exp_one(dx, dy, dth)
+        step[i, 0], step[i, 1], step[i, 2] = ex, ey, eh
         pose[i, 0], pose[i, 1], pose[i, 2] = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], ex, ey, eh)
 
 
@@ -261,6 +262,13 @@ class Odometry:
         self.reset(np.zeros((0, 3)))
 
     @property
+    def increment(self) -> np.ndarray:
+        """The last update's move, shape (N, 3): the body-frame pose of the new estimate seen
+        from the previous one, dx [m], dy [m], dtheta [rad] (the odometry's own array, zero
+        after :meth:`reset` and the first update)."""
+        return self._step
+
+    @property
     def pose(self) -> np.ndarray:
         """Current estimate, shape (N, 3): x [m], y [m], heading [rad], field frame (a copy)."""
         return self._pose.copy()
@@ -277,18 +285,24 @@ class Odometry:
         self._imu_heading = pose0[:, 2].copy()
         self._since = np.zeros(n)
         self._last_rate = np.zeros(n)
+        self._step = np.zeros((n, 3))
+        self._zeros = np.zeros(n)  # gyro stand-ins without an IMU (read only by the kernel)
+        self._false = np.zeros(n, dtype=np.bool_)
 
-    def update(self, readings: Readings) -> np.ndarray:
+    def update(self, readings: Readings, *, copy: bool = True) -> np.ndarray:
         """Advance by one tick of readings.
 
         Parameters
         ----------
         readings : Readings
             Of the N robots; the first call after :meth:`reset` only latches the counts.
+        copy : bool
+            Return a copy (default), or the odometry's own array, valid until the next call
+            (for a caller that reads it at once and must not allocate every tick).
 
         Returns
         -------
-        ndarray, shape (N, 3) — pose estimate, field frame (a copy)
+        ndarray, shape (N, 3) — pose estimate, field frame
         """
         counts = getattr(readings, self._field)
         if counts is None:
@@ -306,7 +320,7 @@ class Odometry:
         if self._prev is None:
             self._prev = counts.copy()
             self._t_prev = readings.t
-            return self._pose.copy()
+            return self._pose.copy() if copy else self._pose
         if self.use_imu:
             if readings.gyro_rate is None or readings.imu_valid is None or readings.gyro_interval is None:
                 raise ScenarioError(
@@ -314,13 +328,13 @@ class Odometry:
                 )
             gyro, valid, interval = readings.gyro_rate, readings.imu_valid, readings.gyro_interval
         else:
-            gyro = interval = np.zeros(n)
-            valid = np.zeros(n, dtype=np.bool_)
+            gyro = interval = self._zeros
+            valid = self._false
         _odometry_kernel(
             self._pose, counts, self._prev, self._gain, self._couple, self._own_heading,
             self.use_imu, np.asarray(gyro, np.float64), np.asarray(valid, np.bool_),
             np.asarray(interval, np.float64), self._imu_heading, self._since, self._last_rate,
-            float(readings.t - self._t_prev),
+            float(readings.t - self._t_prev), self._step,
         )
         self._t_prev = readings.t
-        return self._pose.copy()
+        return self._pose.copy() if copy else self._pose
