@@ -50,14 +50,11 @@ import numpy as np
 from planners.estimators import ESTIMATORS
 from planners.estimators.beams import RANGE_SIGMA_PARAM, Beams, beam_readings, make_beams
 from planners.estimators.common import (
-    SOURCE_PARAM, as_start, fix_sigma, make_odometry, split_params,
+    MOTION_PARAMS, SOURCE_PARAM, FixFeed, as_start, make_odometry, motion_noise, split_params,
 )
 from planners.estimators.ekf_kernels import ekf_tick
 from planners.params import Param
 from planners.readings import Readings
-
-_UNSET = object()
-
 
 @ESTIMATORS.register("ekf")
 class PoseEKF:
@@ -88,21 +85,7 @@ class PoseEKF:
 
     PARAMS: ClassVar[dict[str, Param]] = {
         "source": SOURCE_PARAM,
-        "distance_noise": Param(
-            "dimensionless", 0.02, "position std after 1 m driven [m/sqrt(m)]", ge=0.0
-        ),
-        "turn_noise": Param(
-            "dimensionless", 0.05, "heading std after 1 rad turned [rad/sqrt(rad)]", ge=0.0
-        ),
-        "drift_noise": Param(
-            "dimensionless", 0.02, "heading std after 1 m driven [rad/sqrt(m)]", ge=0.0
-        ),
-        "lateral_noise": Param(
-            "dimensionless", None,
-            "sideways position std after 1 m driven [m/sqrt(m)] (default: distance_noise)", ge=0.0,
-        ),
-        "floor_xy": Param("length", 1e-4, "per-tick position noise floor", ge=0.0),
-        "floor_heading": Param("angle", 1e-4, "per-tick heading noise floor", ge=0.0),
+        **MOTION_PARAMS,
         "gate": Param("dimensionless", 11.34, "chi-square gate of a fix (3 dof)", gt=0.0),
         "latency": Param(
             "choice", "replay", "late fixes: replay later increments or ignore age",
@@ -126,18 +109,7 @@ class PoseEKF:
         context, p = split_params(where, self.PARAMS, kwargs)
         self._context = context
         self._odo = make_odometry(context, p["source"], where=where)
-        kd, kt, kh = (float(p[k]) for k in ("distance_noise", "turn_noise", "drift_noise"))
-        kl = kd if p["lateral_noise"] is None else float(p["lateral_noise"])
-        imu = getattr(context.get("sensors"), "imu", None)
-        # white gyro noise integrated over one tick: N^2 T (IEEE Std 952-1997 angle random walk)
-        gyro_var = (
-            float(getattr(imu, "rate_noise", 0.0)) ** 2 * float(context["dt"])
-            if p["source"].endswith("+imu") else -1.0
-        )
-        self._noise = np.array([
-            kd * kd, kl * kl, kt * kt, kh * kh, gyro_var,
-            float(p["floor_xy"]) ** 2, float(p["floor_heading"]) ** 2,
-        ])
+        self._noise = motion_noise(context, p)
         self.gate = float(p["gate"])
         self.latency = p["latency"]
         self.reacquire = int(p["reacquire"])
@@ -152,8 +124,7 @@ class PoseEKF:
             make_beams(context, p["range_sigma"], where=where, required=True) if p["ranges"] else None
         )
         self.range_gate = float(p["range_gate"])
-        self._fix_var = np.zeros(3)
-        self._fix_sigma_seen: object = _UNSET
+        self._fixes = FixFeed(context)
         self.reset(np.zeros((0, 3)), 0)
 
     def reset(self, pose0: np.ndarray, n: int, *, rngs: list | None = None) -> None:
@@ -172,7 +143,6 @@ class PoseEKF:
         self.range_rejected = np.zeros(n, dtype=np.int64)
         self._streak = np.zeros(n, dtype=np.int64)
         self._work = np.zeros((5, 3, 3))
-        self._no_fix = (np.empty((0, 3)), np.empty(0, dtype=np.bool_), np.empty(0))
         self._no_beams = (np.empty((n, 0)), np.empty((n, 0), dtype=np.bool_))
         b = self.beams
         self._beam_args = (
@@ -180,34 +150,18 @@ class PoseEKF:
             else (b.segments, b.mounts, b.variance)
         )
 
-    def _fix_arrays(self, readings: Readings) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        if readings.fix is None or readings.fix_valid is None:
-            return self._no_fix
-        sigma = readings.fix_sigma
-        if sigma is not self._fix_sigma_seen:
-            # fix variances, recomputed only when the readings carry a new sigma array
-            self._fix_var = fix_sigma(self._context, readings) ** 2
-            self._fix_sigma_seen = sigma
-        n = self._pose.shape[0]
-        stamp = readings.fix_time
-        return (
-            np.ascontiguousarray(readings.fix, dtype=np.float64),
-            np.ascontiguousarray(readings.fix_valid, dtype=np.bool_),
-            self._no_fix[2] if stamp is None else np.ascontiguousarray(stamp, dtype=np.float64).reshape(n),
-        )
-
     def update(self, t: float, readings: Readings) -> np.ndarray:
         """Pose estimate (N, 3), field frame; :attr:`covariance` follows."""
         self._odo.update(readings, copy=False)
         slot = self._tick % self._depth
         self._tick += 1
-        fix, valid, stamp = self._fix_arrays(readings)
+        fix, valid, stamp = self._fixes.arrays(readings, self._pose.shape[0])
         ranges, range_valid = beam_readings(readings, self.beams, self._no_beams)
         segs, mounts, var = self._beam_args
         ekf_tick(
             float(t), self._dt, self._odo.increment, self._pose, self._cov, self._noise,
             self._h_time, slot, min(self._tick, self._depth), self._hist, self._h_range,
-            fix, valid, stamp, self._fix_var, self.gate, self.latency == "replay", self.reacquire,
+            fix, valid, stamp, self._fixes.variance, self.gate, self.latency == "replay", self.reacquire,
             self._streak, self.rejected,
             ranges, range_valid, segs, mounts, var, self.range_gate, self.range_rejected, self._work,
         )

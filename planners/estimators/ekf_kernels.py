@@ -33,11 +33,12 @@ def increment_variances(noise, ux, uy, ut):
 
 @njit(cache=True, inline="always")
 def wrap_near(a):
-    """``a`` wrapped to (-pi, pi] for ``|a| < 3 pi`` (a sum of two wrapped angles)."""
+    """``a`` wrapped to (-pi, pi]: one add for ``|a| < 3 pi`` (a sum of two wrapped angles),
+    :func:`planners.se2.wrap_one` beyond."""
     if a > np.pi:
-        return a - 2.0 * np.pi
+        return a - 2.0 * np.pi if a <= 3.0 * np.pi else wrap_one(a)
     if a <= -np.pi:
-        return a + 2.0 * np.pi
+        return a + 2.0 * np.pi if a > -3.0 * np.pi else wrap_one(a)
     return a
 
 
