@@ -30,7 +30,7 @@ _S11 = np.uint64(11)
 _TO_UNIT = 1.0 / 9007199254740992.0  # 2^-53
 
 #: counter word 2 of each kind of draw, so draws of different purposes never share a block
-MOTION, RESAMPLE, RESET, START = 1, 2, 3, 4
+MOTION, RESAMPLE, RESET, START, INJECT = 1, 2, 3, 4, 5
 
 
 @njit(cache=True, inline="always")

@@ -1,9 +1,14 @@
 """``particle``: Monte Carlo localisation: odometry motion, fix and range-beam weights.
 
-Motion (sampled): each particle moves by the odometry increment ``u`` perturbed in the body
-frame with the variances of the ``ekf`` model (``distance_noise^2 d`` along, ``lateral_noise^2
-d`` across, ``turn_noise^2 |du| + drift_noise^2 d`` or the gyro's ``N^2 T`` in heading, plus
-per-tick floors). Measurements multiply the weights:
+Motion (sampled): each particle moves by the odometry increments perturbed in its body frame
+with the variances of the ``ekf`` model (``distance_noise^2 d`` along, ``lateral_noise^2 d``
+across, ``turn_noise^2 |du| + drift_noise^2 d`` or the gyro's ``N^2 T`` in heading, plus
+per-tick floors). The noise is drawn once per measurement, with the variances summed since
+the previous one; between measurements the particles move by the exact composition of the
+increments, carried as one pose and applied when needed (so the estimate costs O(1) per
+robot on a tick without a measurement, and its spread grows only when one arrives). This
+differs from drawing at every tick only by the turn within one measurement period.
+Measurements multiply the weights:
 
 * a fix ``z``: the Gaussian likelihood ``exp(-nu' R^-1 nu / 2)`` (heading error wrapped);
 * each range beam (``ranges = true``, the default when the robot has range sensors): the
@@ -28,7 +33,9 @@ that does not know where it was put down (global localisation, Thrun, Burgard, F
 sensor resetting (Lenser and Veloso, "Sensor resetting localization for poorly
 modelled mobile robots", ICRA 2000) helps: when even the best particle is further from a fix
 than the chi-square gate ``reset_gate`` (squared Mahalanobis distance, 3 dof), no particle
-explains it, and the whole cloud is redrawn from the fix distribution ``N(z, R)``. It is off
+explains it, and the whole cloud is redrawn from the fix distribution ``N(z, R)``; with
+``inject`` a share of the particles is redrawn from every fix, so that a cloud that settled
+on a wrong spot near the truth keeps neighbours that can take over. Both are off
 by default: a late fix of a fast robot (100 ms at 1.5 m/s is 15 cm, 7 sigma of a 2 cm fix)
 would look unexplained and reset the cloud onto a stale pose; use it with current fixes.
 
@@ -51,10 +58,11 @@ from planners.estimators.common import (
 )
 from planners.estimators.draws import robot_keys
 from planners.estimators.particle_kernels import (
-    inside_kernel, particle_covariance, particle_tick, uniform_start,
+    inside_kernel, moments_kernel, particle_covariance, particle_tick, uniform_start,
 )
 from planners.params import Param
 from planners.readings import Readings
+from planners.se2 import compose
 
 
 def free_floor(segments: np.ndarray, xy: np.ndarray) -> np.ndarray:
@@ -81,6 +89,7 @@ class ParticleFilter:
     distance_noise, turn_noise, drift_noise, lateral_noise, floor_xy, floor_heading :
         the increment noise, as for ``ekf``
     reset_gate : float — chi-square distance of a fix from the best particle that redraws the cloud
+    inject : float — share of the particles redrawn from every fix (a partial reset)
     init : {"start", "uniform"} — where the particles start
     ranges : bool — weigh by the range sensors (when the robot has any)
     range_sigma : float or None — range noise assumed [m]
@@ -103,6 +112,11 @@ class ParticleFilter:
             "dimensionless", 0.0,
             "redraw the cloud at a fix no particle explains (chi-square, 3 dof, e.g. 11.34; 0 = never)",
             ge=0.0,
+        ),
+        "inject": Param(
+            "dimensionless", 0.0,
+            "share of the particles redrawn from every fix (partial sensor reset; 0 = none)",
+            ge=0.0, lt=1.0,
         ),
         "init": Param(
             "choice", "start", "particles on the start pose, or uniform over the free floor",
@@ -136,6 +150,7 @@ class ParticleFilter:
         self.m = int(p["particles"])
         self.init = p["init"]
         self.reset_gate = float(p["reset_gate"])
+        self.inject = int(round(float(p["inject"]) * self.m))
         self.outlier = float(p["range_outlier"])
         self.resample = float(p["resample"])
         segments = getattr(context.get("field"), "segments", None)
@@ -163,6 +178,10 @@ class ParticleFilter:
         if self.init == "uniform" and n:
             uniform_start(self._segments, self._keys, self._p, self._w)
         self._pose = np.ascontiguousarray(start)
+        self._delta = np.zeros((n, 3))
+        self._spread = np.zeros((n, 3))
+        self._moments = np.zeros((n, 4))
+        moments_kernel(self._p, self._w, self._moments)
         self._tick = 0
         self._ll = np.zeros(self.m)
         self._spare = np.zeros((self.m, 3))
@@ -178,7 +197,7 @@ class ParticleFilter:
         segs, mounts, rmax, rsig = self._beam_args
         particle_tick(
             self._tick, self._odo.increment, self._keys, self._noise, self._p, self._w,
-            self._ll, self._spare, fix, valid, self._fixes.sigma, self.reset_gate,
+            self._delta, self._spread, self._moments, self._ll, self._spare, fix, valid, self._fixes.sigma, self.reset_gate, self.inject,
             ranges, range_valid, segs, mounts, rmax, rsig, self.outlier,
             self.resample * self.m, self._pose,
         )
@@ -187,8 +206,10 @@ class ParticleFilter:
 
     @property
     def particles(self) -> np.ndarray:
-        """Particles (N, M, 3) [m, m, rad], field frame (a copy)."""
-        return self._p.copy()
+        """Particles (N, M, 3) [m, m, rad], field frame, as of now (a copy)."""
+        n = self._p.shape[0]
+        moved = compose(self._p.reshape(-1, 3), np.repeat(self._delta, self.m, axis=0))
+        return moved.reshape(n, self.m, 3)
 
     @property
     def weights(self) -> np.ndarray:
@@ -202,5 +223,5 @@ class ParticleFilter:
         A floor of 1e-10 on the diagonal keeps it invertible when all particles coincide
         (at the start).
         """
-        particle_covariance(self._p, self._w, self._pose, self._cov)
+        particle_covariance(self._p, self._w, self._delta, self._pose, self._cov)
         return self._cov.copy()
