@@ -15,6 +15,10 @@ error pushes further into saturation (conditional integration, anti-windup).
 Both terms are in volts and divided by the *measured* battery voltage, so the gains do not
 change as the battery sags.
 
+With ``speed_cutoff`` the measured speeds first pass the first-order low-pass of
+:mod:`planners.filters` (off by default: it trades encoder quantisation noise for a lag of
+``a T / (1 - a)``, about ``1 / (2 pi fc) - T / 2``, inside the loop).
+
 The constants kS [V], kV [V s/rad], kA [V s^2/rad] come from ``[control]`` or, when absent,
 from the motor datasheet through :func:`feedforward_from_motor`. kP and kI, when absent,
 come from :func:`planners.gains.velocity_lqr` (discrete LQR on the first-order velocity model with
@@ -31,6 +35,7 @@ import numpy as np
 from numba import njit
 
 from planners.errors import ScenarioError
+from planners.filters import lowpass_coefficient, lowpass_kernel
 from planners.gains import simc_integral_gain, velocity_lqr, wheel_loop_weights
 from planners.params import Param
 
@@ -281,6 +286,10 @@ class WheelController:
             "dimensionless", 0.0, "V per rad/s^2 of accel error (derivative on measurement)", ge=0.0
         ),
         "d_filter": _p("time", 0.01, "time constant of the measured-accel filter", ge=0.0),
+        "speed_cutoff": _p(
+            "frequency", None, "first-order low-pass of the measured wheel speeds (default: off)",
+            gt=0.0,
+        ),
         "i_limit": _p(
             "voltage",
             None,
@@ -371,6 +380,10 @@ class WheelController:
         self._dfilt = np.zeros(shape)
         self._prev = np.zeros(shape)
         self._primed = np.zeros(shape[0], dtype=np.bool_)
+        # measured-speed low-pass (planners.filters): its lag, a T / (1 - a), delays the loop
+        cutoff = self.params["speed_cutoff"]
+        self._speed_a = None if cutoff is None else lowpass_coefficient(cutoff, self.dt)
+        self._speed = np.zeros(shape)
         tau = self.params["d_filter"]
         self._d_alpha = 1.0 if tau <= 0.0 else float(1.0 - np.exp(-self.dt / tau))
 
@@ -409,6 +422,9 @@ class WheelController:
         vb = np.ascontiguousarray(
             np.broadcast_to(np.asarray(battery_voltage, dtype=np.float64).reshape(-1), shape[:1])
         )
+        if self._speed_a is not None:
+            lowpass_kernel(self._speed, args[2], self._speed_a)
+            args[2] = self._speed
         g = self._g
         out = np.empty(shape)
         _wheel_kernel(

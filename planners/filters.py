@@ -44,8 +44,8 @@ def lowpass_lag(a: float, dt: float) -> float:
     delay ``tau(w) = a (cos w - a) / (1 - 2 a cos w + a^2)`` samples, which at ``w -> 0`` is
     ``a (1 - a) / (1 - a)^2 = a / (1 - a)``. A ramp ``x_k = k`` comes out as
     ``y_k = k - a / (1 - a)`` once the start has died away: the output is the input of
-    ``a / (1 - a)`` samples ago. With ``a = exp(-2 pi fc T)`` and ``fc T << 1`` this is about
-    ``1 / (2 pi fc)``, the RC time constant.
+    ``a / (1 - a)`` samples ago. With ``a = exp(-2 pi fc T)`` it is ``T / (exp(2 pi fc T) - 1)
+    = 1 / (2 pi fc) - T / 2 + ...``: the RC time constant less half a sample.
 
     Parameters
     ----------
