@@ -150,7 +150,7 @@ def pod_twist_maps(
 @njit(cache=True)
 def _odometry_kernel(
     pose, counts, prev, gain, couple, own_heading, use_imu, gyro, valid, interval,
-    imu_heading, since, last_rate, dt, step,
+    imu_heading, since, last_rate, dt, step, positions,
 ):
     n, k = counts.shape
     for i in range(n):
@@ -177,7 +177,10 @@ def _odometry_kernel(
             dy += couple[1] * dth
         ex, ey, eh = exp_one(dx, dy, dth)
         step[i, 0], step[i, 1], step[i, 2] = ex, ey, eh
-        pose[i, 0], pose[i, 1], pose[i, 2] = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], ex, ey, eh)
+        if positions:
+            pose[i, 0], pose[i, 1], pose[i, 2] = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], ex, ey, eh)
+        else:  # the heading alone, as compose_one gives it
+            pose[i, 2] = wrap_one(pose[i, 2] + eh)
 
 
 class Odometry:
@@ -199,6 +202,9 @@ class Odometry:
         Pods: wheel radius [m] and counts per revolution.
     no_sideslip : bool
         Pods: assume no sideways motion (skid/differential), so two pods suffice.
+    positions : bool
+        Keep x, y of :attr:`pose` (default). Without, only the heading is kept (x, y stay at
+        the start): for a caller that uses :attr:`increment` alone, and saves the rotation.
 
     Examples
     --------
@@ -223,7 +229,9 @@ class Odometry:
         pod_radius: float | np.ndarray | None = None,
         pod_counts_per_rev: float | np.ndarray | None = None,
         no_sideslip: bool = False,
+        positions: bool = True,
     ) -> None:
+        self._positions = bool(positions)
         if source not in SOURCES:
             raise ScenarioError(
                 f"odometry: source must be one of {', '.join(map(repr, SOURCES))}, "
@@ -334,7 +342,7 @@ class Odometry:
             self._pose, counts, self._prev, self._gain, self._couple, self._own_heading,
             self.use_imu, np.asarray(gyro, np.float64), np.asarray(valid, np.bool_),
             np.asarray(interval, np.float64), self._imu_heading, self._since, self._last_rate,
-            float(readings.t - self._t_prev), self._step,
+            float(readings.t - self._t_prev), self._step, self._positions,
         )
         self._t_prev = readings.t
         return self._pose.copy() if copy else self._pose

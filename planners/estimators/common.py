@@ -62,8 +62,12 @@ def motion_noise(context: dict[str, Any], p: dict[str, Any]) -> np.ndarray:
     ])
 
 
-def make_odometry(context: dict[str, Any], source: str, *, where: str) -> Odometry:
+def make_odometry(
+    context: dict[str, Any], source: str, *, where: str, positions: bool = True
+) -> Odometry:
     """Build the :class:`Odometry` of ``source`` from the runner's context.
+
+    ``positions=False`` for a caller that reads only :attr:`Odometry.increment`.
 
     Raises
     ------
@@ -101,7 +105,7 @@ def make_odometry(context: dict[str, Any], source: str, *, where: str) -> Odomet
         )
     if source.endswith("+imu") and getattr(sensors, "imu", None) is None:
         raise ScenarioError(f"{where}: sensors.imu must be present for source {source!r}, got None")
-    return Odometry(source=source, **odo_args)
+    return Odometry(source=source, positions=positions, **odo_args)
 
 
 def need_fixes(context: dict[str, Any], *, where: str) -> None:

@@ -108,7 +108,7 @@ class PoseEKF:
         where = "estimator.ekf"
         context, p = split_params(where, self.PARAMS, kwargs)
         self._context = context
-        self._odo = make_odometry(context, p["source"], where=where)
+        self._odo = make_odometry(context, p["source"], where=where, positions=False)
         self._noise = motion_noise(context, p)
         self.gate = float(p["gate"])
         self.latency = p["latency"]
@@ -131,13 +131,15 @@ class PoseEKF:
         """Start at ``pose0`` (N, 3) [m, m, rad], field frame, with a tiny covariance."""
         self._pose = np.ascontiguousarray(as_start(pose0, n))
         self._cov = np.tile(np.diag([1e-8, 1e-8, 1e-8]), (n, 1, 1))
+        self._cs = np.column_stack([np.cos(self._pose[:, 2]), np.sin(self._pose[:, 2])])
         self._odo.reset(self._pose)
         h = self._depth
         r = 0 if self.beams is None else self.beams.count
         self._h_time = np.full(h, -np.inf)
-        # one robot's ring is contiguous (a replay walks it): (N, H, ...)
-        self._hist = np.zeros((n, h, 12))
-        self._h_range = np.full((n, h, r), np.nan)
+        # one tick's rows are contiguous (a tick writes them, a replay walks them): (H, N, ...)
+        self._hist = np.zeros((h, n, 12))
+        self._h_range = np.full((h, n, r), np.nan)
+        self._replay_back = np.zeros(n, dtype=np.int64)
         self._tick = 0
         self.rejected = np.zeros(n, dtype=np.int64)
         self.range_rejected = np.zeros(n, dtype=np.int64)
@@ -159,11 +161,12 @@ class PoseEKF:
         ranges, range_valid = beam_readings(readings, self.beams, self._no_beams)
         segs, mounts, var = self._beam_args
         ekf_tick(
-            float(t), self._dt, self._odo.increment, self._pose, self._cov, self._noise,
+            float(t), self._dt, self._odo.increment, self._pose, self._cov, self._cs, self._noise,
             self._h_time, slot, min(self._tick, self._depth), self._hist, self._h_range,
             fix, valid, stamp, self._fixes.variance, self.gate, self.latency == "replay", self.reacquire,
             self._streak, self.rejected,
-            ranges, range_valid, segs, mounts, var, self.range_gate, self.range_rejected, self._work,
+            ranges, range_valid, segs, mounts, var, self.range_gate, self.range_rejected,
+            self._replay_back, self._work,
         )
         return self._pose.copy()
 

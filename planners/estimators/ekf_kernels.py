@@ -42,12 +42,33 @@ def wrap_near(a):
     return a
 
 
+_R6, _R12, _R20, _R30, _R42, _R56 = 1 / 6, 1 / 12, 1 / 20, 1 / 30, 1 / 42, 1 / 56
+
+
 @njit(cache=True, inline="always")
-def predict_one(p, P, i, ux, uy, ut, q0, q1, q2):
+def turn_cos_sin(u):
+    """``cos u``, ``sin u``; by their Taylor series (exact to double precision) below 0.02 rad,
+    where one tick's turn nearly always is (the terms left out are under 1e-19 relative)."""
+    if abs(u) < 0.02:
+        u2 = u * u
+        # Horner form, multiplications by the reciprocals (no division in the chain)
+        return (
+            1.0 - u2 * 0.5 * (1.0 - u2 * _R12 * (1.0 - u2 * _R30 * (1.0 - u2 * _R56))),
+            u * (1.0 - u2 * _R6 * (1.0 - u2 * _R20 * (1.0 - u2 * _R42))),
+        )
+    return np.cos(u), np.sin(u)
+
+
+@njit(cache=True, inline="always")
+def predict_one(p, P, cs, i, ux, uy, ut, q0, q1, q2):
     """Row ``i`` of ``p`` (N, 3), ``P`` (N, 3, 3) in place: ``x' = x * u``,
-    ``P' = F_x P F_x' + F_u Q_u F_u'`` with ``F_x = I + [a, b, 0]' e3'``."""
-    c = np.cos(p[i, 2])
-    s = np.sin(p[i, 2])
+    ``P' = F_x P F_x' + F_u Q_u F_u'`` with ``F_x = I + [a, b, 0]' e3'``.
+
+    ``cs`` (N, 2) holds the cosine and sine of each robot's heading; it is turned by ``ut``
+    (angle sum), so a prediction calls no trigonometric function for a small turn.
+    """
+    c = cs[i, 0]
+    s = cs[i, 1]
     a = -s * ux - c * uy
     b = c * ux - s * uy
     p00, p01, p02 = P[i, 0, 0], P[i, 0, 1], P[i, 0, 2]
@@ -69,75 +90,64 @@ def predict_one(p, P, i, ux, uy, ut, q0, q1, q2):
     p[i, 0] += c * ux - s * uy
     p[i, 1] += s * ux + c * uy
     p[i, 2] = wrap_near(p[i, 2] + ut)
+    cu, su = turn_cos_sin(ut)
+    cs[i, 0] = c * cu - s * su
+    cs[i, 1] = s * cu + c * su
 
 
 @njit(cache=True, inline="always")
-def fix_distance(p, P, z, r):
-    """Squared Mahalanobis distance ``nu' (P + R)^-1 nu`` of a fix ``z`` (3,), ``R = diag(r)``."""
-    n0 = z[0] - p[0]
-    n1 = z[1] - p[1]
-    n2 = wrap_one(z[2] - p[2])
-    s00, s01, s02 = P[0, 0] + r[0], P[0, 1], P[0, 2]
-    s11, s12, s22 = P[1, 1] + r[1], P[1, 2], P[2, 2] + r[2]
-    # adjugate of the symmetric S
-    a00 = s11 * s22 - s12 * s12
-    a01 = s02 * s12 - s01 * s22
-    a02 = s01 * s12 - s02 * s11
-    a11 = s00 * s22 - s02 * s02
-    a12 = s01 * s02 - s00 * s12
-    a22 = s00 * s11 - s01 * s01
-    det = s00 * a00 + s01 * a01 + s02 * a02
-    q = (a00 * n0 * n0 + a11 * n1 * n1 + a22 * n2 * n2
-         + 2.0 * (a01 * n0 * n1 + a02 * n0 * n2 + a12 * n1 * n2))
-    return q / det
+def set_heading_cos_sin(p, cs, i):
+    """``cs[i]`` from the heading itself (after an update moved it)."""
+    cs[i, 0] = np.cos(p[i, 2])
+    cs[i, 1] = np.sin(p[i, 2])
 
 
 @njit(cache=True)
-def fix_update(p, P, z, r, work):
-    """Kalman update by a fix (``H = I``) in place; ``work[:3]`` (3, 3, 3) is scratch space.
+def fix_update(p, P, z, r, gate, work):
+    """Gated Kalman update by a fix (``H = I``, ``R = diag(r)``) in place.
 
-    ``K = P S^-1``, ``x += K nu``, ``P = (I - K) P (I - K)' + K R K'`` (Joseph form).
+    ``S = P + R``; the fix is rejected (False, nothing changed) when its squared Mahalanobis
+    distance ``nu' S^-1 nu`` exceeds ``gate``; else ``K = P S^-1``, ``x += K nu``,
+    ``P = (I - K) P (I - K)' + K R K'`` (Joseph form). ``work`` (3, 3, 3) is scratch space.
     """
-    S, K, A = work[0], work[1], work[2]
-    for a in range(3):
-        for b in range(3):
-            S[a, b] = P[a, b]
-        S[a, a] += r[a]
-    s00, s01, s02 = S[0, 0], S[0, 1], S[0, 2]
-    s11, s12, s22 = S[1, 1], S[1, 2], S[2, 2]
+    Si, K, A = work[0], work[1], work[2]
+    s00, s01, s02 = P[0, 0] + r[0], P[0, 1], P[0, 2]
+    s11, s12, s22 = P[1, 1] + r[1], P[1, 2], P[2, 2] + r[2]
+    # S^-1 = adj(S) / det(S), S symmetric
     a00 = s11 * s22 - s12 * s12
     a01 = s02 * s12 - s01 * s22
     a02 = s01 * s12 - s02 * s11
     a11 = s00 * s22 - s02 * s02
     a12 = s01 * s02 - s00 * s12
     a22 = s00 * s11 - s01 * s01
-    det = s00 * a00 + s01 * a01 + s02 * a02
-    # S^-1 (symmetric) into S
-    S[0, 0], S[0, 1], S[0, 2] = a00 / det, a01 / det, a02 / det
-    S[1, 0], S[1, 1], S[1, 2] = a01 / det, a11 / det, a12 / det
-    S[2, 0], S[2, 1], S[2, 2] = a02 / det, a12 / det, a22 / det
-    for a in range(3):
-        for b in range(3):
-            K[a, b] = P[a, 0] * S[0, b] + P[a, 1] * S[1, b] + P[a, 2] * S[2, b]
+    inv = 1.0 / (s00 * a00 + s01 * a01 + s02 * a02)
     n0 = z[0] - p[0]
     n1 = z[1] - p[1]
     n2 = wrap_one(z[2] - p[2])
+    d2 = (a00 * n0 * n0 + a11 * n1 * n1 + a22 * n2 * n2
+          + 2.0 * (a01 * n0 * n1 + a02 * n0 * n2 + a12 * n1 * n2)) * inv
+    if not d2 <= gate:
+        return False
+    Si[0, 0], Si[0, 1], Si[0, 2] = a00 * inv, a01 * inv, a02 * inv
+    Si[1, 0], Si[1, 1], Si[1, 2] = Si[0, 1], a11 * inv, a12 * inv
+    Si[2, 0], Si[2, 1], Si[2, 2] = Si[0, 2], Si[1, 2], a22 * inv
+    for a in range(3):
+        for b in range(3):
+            K[a, b] = P[a, 0] * Si[0, b] + P[a, 1] * Si[1, b] + P[a, 2] * Si[2, b]
     for a in range(3):
         p[a] += K[a, 0] * n0 + K[a, 1] * n1 + K[a, 2] * n2
     p[2] = wrap_one(p[2])
+    # A = (I - K) P, then P = A (I - K)' + K R K'
     for a in range(3):
         for b in range(3):
-            A[a, b] = (1.0 if a == b else 0.0) - K[a, b]
-    # S <- A P, then P <- S A' + K R K'
-    for a in range(3):
-        for b in range(3):
-            S[a, b] = A[a, 0] * P[0, b] + A[a, 1] * P[1, b] + A[a, 2] * P[2, b]
+            A[a, b] = P[a, b] - (K[a, 0] * P[0, b] + K[a, 1] * P[1, b] + K[a, 2] * P[2, b])
     for a in range(3):
         for b in range(a, 3):
-            v = S[a, 0] * A[b, 0] + S[a, 1] * A[b, 1] + S[a, 2] * A[b, 2]
+            v = A[a, b] - (A[a, 0] * K[b, 0] + A[a, 1] * K[b, 1] + A[a, 2] * K[b, 2])
             v += K[a, 0] * r[0] * K[b, 0] + K[a, 1] * r[1] * K[b, 1] + K[a, 2] * r[2] * K[b, 2]
             P[a, b] = v
             P[b, a] = v
+    return True
 
 
 @njit(cache=True, inline="always")
@@ -181,24 +191,24 @@ def range_updates(p, P, segs, mounts, z, var, gate):
 @njit(cache=True, inline="always")
 def _store(pose, cov, i, hist, j):
     # ring slot j of robot i <- pose, covariance (upper triangle); the increment is kept
-    hist[i, j, 0], hist[i, j, 1], hist[i, j, 2] = pose[i, 0], pose[i, 1], pose[i, 2]
-    hist[i, j, 3], hist[i, j, 4], hist[i, j, 5] = cov[i, 0, 0], cov[i, 0, 1], cov[i, 0, 2]
-    hist[i, j, 6], hist[i, j, 7], hist[i, j, 8] = cov[i, 1, 1], cov[i, 1, 2], cov[i, 2, 2]
+    hist[j, i, 0], hist[j, i, 1], hist[j, i, 2] = pose[i, 0], pose[i, 1], pose[i, 2]
+    hist[j, i, 3], hist[j, i, 4], hist[j, i, 5] = cov[i, 0, 0], cov[i, 0, 1], cov[i, 0, 2]
+    hist[j, i, 6], hist[j, i, 7], hist[j, i, 8] = cov[i, 1, 1], cov[i, 1, 2], cov[i, 2, 2]
 
 
 @njit(cache=True, inline="always")
 def _load(hist, i, j, p, P):
-    p[0], p[1], p[2] = hist[i, j, 0], hist[i, j, 1], hist[i, j, 2]
-    P[0, 0], P[0, 1], P[0, 2] = hist[i, j, 3], hist[i, j, 4], hist[i, j, 5]
-    P[1, 0], P[1, 1], P[1, 2] = hist[i, j, 4], hist[i, j, 6], hist[i, j, 7]
-    P[2, 0], P[2, 1], P[2, 2] = hist[i, j, 5], hist[i, j, 7], hist[i, j, 8]
+    p[0], p[1], p[2] = hist[j, i, 0], hist[j, i, 1], hist[j, i, 2]
+    P[0, 0], P[0, 1], P[0, 2] = hist[j, i, 3], hist[j, i, 4], hist[j, i, 5]
+    P[1, 0], P[1, 1], P[1, 2] = hist[j, i, 4], hist[j, i, 6], hist[j, i, 7]
+    P[2, 0], P[2, 1], P[2, 2] = hist[j, i, 5], hist[j, i, 7], hist[j, i, 8]
 
 
 @njit(cache=True)
 def ekf_tick(
-    t, dt, step, pose, cov, noise, h_time, slot, filled, hist, h_range,
+    t, dt, step, pose, cov, cs, noise, h_time, slot, filled, hist, h_range,
     fix, fix_valid, fix_time, fix_var, gate, replay, reacquire, streak, rejected,
-    ranges, range_valid, segs, mounts, range_var, range_gate, range_rejected, work,
+    ranges, range_valid, segs, mounts, range_var, range_gate, range_rejected, replay_back, work,
 ):
     """One tick of the EKF for every robot: predict, range updates, late fix with replay.
 
@@ -207,12 +217,13 @@ def ekf_tick(
     t : float — time of the tick [s]; dt : float — control period [s]
     step : ndarray (N, 3) — odometry increment of this tick, body frame [m, m, rad]
     pose, cov : ndarray (N, 3), (N, 3, 3) — the estimate, updated in place
+    cs : ndarray (N, 2) — cosine and sine of each estimated heading, kept in step
     noise : ndarray (7,) — see :func:`increment_variances`
     h_time : ndarray (H,) — ring of tick times (``h_time[slot] = t`` is written here)
     slot, filled : int — ring slot of this tick, slots in use (this one included)
-    hist : ndarray (N, H, 12) — per robot and tick in the ring: posterior pose (3),
+    hist : ndarray (H, N, 12) — per tick in the ring and robot: posterior pose (3),
         covariance upper triangle P00 P01 P02 P11 P12 P22 (6), odometry increment (3)
-    h_range : ndarray (N, H, R) — ranges of each tick in the ring (NaN: none)
+    h_range : ndarray (H, N, R) — ranges of each tick in the ring (NaN: none)
     fix, fix_valid, fix_time : ndarray (N, 3), (N,), (N,) — fixes (shape (0, ...) when none)
     fix_var : ndarray (3,) — fix variances [m^2, m^2, rad^2]
     gate : float — chi-square threshold of a fix (3 dof)
@@ -223,6 +234,7 @@ def ekf_tick(
     segs : ndarray (S, 4) — walls; mounts : ndarray (R, 3); range_var : ndarray (R,) [m^2]
     range_gate : float — chi-square threshold of a beam (1 dof)
     range_rejected : ndarray (N,) int — beams rejected in total
+    replay_back : ndarray (N,) int — scratch: ticks each robot re-applies after its fix
     work : ndarray (5, 3, 3) — scratch space
     """
     depth = h_time.shape[0]
@@ -233,17 +245,20 @@ def ekf_tick(
     wP = work[3]
     last_stamp = np.nan
     last_back = 0
+    most = 0
     for i in range(pose.shape[0]):
         ux, uy, ut = step[i, 0], step[i, 1], step[i, 2]
         q0, q1, q2 = increment_variances(noise, ux, uy, ut)
-        predict_one(pose, cov, i, ux, uy, ut, q0, q1, q2)
-        hist[i, slot, 9], hist[i, slot, 10], hist[i, slot, 11] = ux, uy, ut
+        predict_one(pose, cov, cs, i, ux, uy, ut, q0, q1, q2)
+        hist[slot, i, 9], hist[slot, i, 10], hist[slot, i, 11] = ux, uy, ut
+        replay_back[i] = 0
         if n_beams:
             for k in range(n_beams):
-                h_range[i, slot, k] = ranges[i, k] if range_valid[i, k] else np.nan
+                h_range[slot, i, k] = ranges[i, k] if range_valid[i, k] else np.nan
             range_rejected[i] += range_updates(
-                pose[i], cov[i], segs, mounts, h_range[i, slot], range_var, range_gate
+                pose[i], cov[i], segs, mounts, h_range[slot, i], range_var, range_gate
             )
+            set_heading_cos_sin(pose, cs, i)
         _store(pose, cov, i, hist, slot)
         if not has_fix or not fix_valid[i]:
             continue
@@ -277,24 +292,32 @@ def ekf_tick(
                     wP[a, b] = fix_var[a] if a == b else 0.0
         else:
             _load(hist, i, j, wp, wP)
-            if not fix_distance(wp, wP, fix[i], fix_var) <= gate:
+            if not fix_update(wp, wP, fix[i], fix_var, gate, work):
                 rejected[i] += 1
                 streak[i] += 1
                 continue
-            fix_update(wp, wP, fix[i], fix_var, work)
         streak[i] = 0
         for a in range(3):
             pose[i, a] = wp[a]
             for b in range(3):
                 cov[i, a, b] = wP[a, b]
         _store(pose, cov, i, hist, j)
-        for b in range(back - 1, -1, -1):
-            k = (slot - b) % depth
-            ux, uy, ut = hist[i, k, 9], hist[i, k, 10], hist[i, k, 11]
+        set_heading_cos_sin(pose, cs, i)
+        replay_back[i] = back
+        most = max(most, back)
+    # re-apply the ticks after each fix's own: tick by tick over the robots, so that one
+    # robot's chain of dependent steps interleaves with the others'
+    for b in range(most - 1, -1, -1):
+        k = (slot - b) % depth
+        for i in range(pose.shape[0]):
+            if replay_back[i] <= b:
+                continue
+            ux, uy, ut = hist[k, i, 9], hist[k, i, 10], hist[k, i, 11]
             q0, q1, q2 = increment_variances(noise, ux, uy, ut)
-            predict_one(pose, cov, i, ux, uy, ut, q0, q1, q2)
+            predict_one(pose, cov, cs, i, ux, uy, ut, q0, q1, q2)
             if n_beams:
                 range_rejected[i] += range_updates(
-                    pose[i], cov[i], segs, mounts, h_range[i, k], range_var, range_gate
+                    pose[i], cov[i], segs, mounts, h_range[k, i], range_var, range_gate
                 )
+                set_heading_cos_sin(pose, cs, i)
             _store(pose, cov, i, hist, k)

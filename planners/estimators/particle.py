@@ -144,7 +144,7 @@ class ParticleFilter:
             raise ScenarioError(
                 f"{where}: sensors.fixes must be present (or range sensors with ranges = true), got None"
             )
-        self._odo = make_odometry(context, p["source"], where=where)
+        self._odo = make_odometry(context, p["source"], where=where, positions=False)
         self._noise = motion_noise(context, p)
         self._fixes = FixFeed(context)
         self.m = int(p["particles"])
