@@ -93,7 +93,7 @@ class PoseEKF:
         ),
         "history": Param(
             "time", None,
-            "how far back a late fix may reach (default: the fix latency + 2 ticks, else 0.5 s)",
+            "how far back a late fix may reach (default: the fix sensor's latency + 2 ticks)",
             ge=0.0,
         ),
         "reacquire": Param(
@@ -117,8 +117,8 @@ class PoseEKF:
         history = p["history"]
         if history is None:
             fixes = getattr(context.get("sensors"), "fixes", None)
-            latency = getattr(fixes, "latency", None)
-            history = 0.5 if latency is None else float(latency) + 2.0 * self._dt
+            # (a fix sensor that states no latency is given 0.5 s)
+            history = 0.0 if fixes is None else float(getattr(fixes, "latency", 0.5)) + 2.0 * self._dt
         self._depth = max(1, int(math.ceil(float(history) / self._dt - 1e-9)) + 1)
         self.beams: Beams | None = (
             make_beams(context, p["range_sigma"], where=where, required=True) if p["ranges"] else None
