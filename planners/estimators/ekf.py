@@ -107,7 +107,6 @@ class PoseEKF:
     def __init__(self, **kwargs: Any) -> None:
         where = "estimator.ekf"
         context, p = split_params(where, self.PARAMS, kwargs)
-        self._context = context
         self._odo = make_odometry(context, p["source"], where=where, positions=False)
         self._noise = motion_noise(context, p)
         self.gate = float(p["gate"])
