@@ -15,6 +15,10 @@ error pushes further into saturation (conditional integration, anti-windup).
 Both terms are in volts and divided by the *measured* battery voltage, so the gains do not
 change as the battery sags.
 
+With ``speed_cutoff`` the measured speeds first pass the first-order low-pass of
+:mod:`planners.filters` (off by default: it trades encoder quantisation noise for a lag of
+``a T / (1 - a)``, about ``1 / (2 pi fc) - T / 2``, inside the loop).
+
 The constants kS [V], kV [V s/rad], kA [V s^2/rad] come from ``[control]`` or, when absent,
 from the motor datasheet through :func:`feedforward_from_motor`. kP and kI, when absent,
 come from :func:`planners.gains.velocity_lqr` (discrete LQR on the first-order velocity model with
@@ -32,6 +36,7 @@ from numba import njit
 
 from planners.arrays import as_rows
 from planners.errors import ScenarioError
+from planners.filters import lowpass_coefficient, lowpass_kernel
 from planners.gains import simc_integral_gain, velocity_lqr, wheel_loop_weights
 from planners.params import Param
 
@@ -292,6 +297,10 @@ class WheelController:
             "dimensionless", 0.0, "V per rad/s^2 of accel error (derivative on measurement)", ge=0.0
         ),
         "d_filter": _p("time", 0.01, "time constant of the measured-accel filter", ge=0.0),
+        "speed_cutoff": _p(
+            "frequency", None, "first-order low-pass of the measured wheel speeds (default: off)",
+            gt=0.0,
+        ),
         "i_limit": _p(
             "voltage",
             None,
@@ -380,6 +389,9 @@ class WheelController:
         self._integ = self._state[_INTEG]
         self._shape = shape
         self._primed = np.zeros(shape[0], dtype=np.bool_)
+        cutoff = self.params["speed_cutoff"]
+        self._speed_a = None if cutoff is None else lowpass_coefficient(cutoff, self.dt)
+        self._speed = np.zeros(shape)
         tau = self.params["d_filter"]
         self._d_alpha = 1.0 if tau <= 0.0 else float(1.0 - np.exp(-self.dt / tau))
 
@@ -416,10 +428,19 @@ class WheelController:
             vb = np.asarray(vb, dtype=np.float64).reshape(-1)
         out = np.empty(shape)
         _wheel_kernel(
-            as_rows(target_speed, shape), as_rows(target_accel, shape), as_rows(measured_speed, shape),
+            as_rows(target_speed, shape), as_rows(target_accel, shape), self._measured(measured_speed),
             as_rows(vb, shape[:1]), self._g, self._state, self._primed, self.dt, self._d_alpha, out,
         )
         return out
+
+    def _measured(self, measured_speed: np.ndarray) -> np.ndarray:
+        # the measured wheel speeds, through the optional low-pass
+        # (planners.filters: its lag, a T / (1 - a), delays the loop)
+        measured = as_rows(measured_speed, self._shape)
+        if self._speed_a is None:
+            return measured
+        lowpass_kernel(self._speed, measured, self._speed_a)
+        return self._speed
 
 
     def duty_from_twist(
@@ -454,7 +475,7 @@ class WheelController:
         out = np.empty(shape)
         _twist_wheel_kernel(
             as_rows(twist, (n, 3)), as_rows(twist_accel, (n, 3)), as_rows(inverse_matrix, (self.wheels, 3)),
-            as_rows(measured_speed, shape), as_rows(battery_voltage, (n,)), self._g, self._state,
+            self._measured(measured_speed), as_rows(battery_voltage, (n,)), self._g, self._state,
             self._primed, self.dt, self._d_alpha, target, accel, out,
         )
         return out, target

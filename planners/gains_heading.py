@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planners.filters import steady_gain
+from planners.filters import lift, steady_gain
 
 
 def gyro_tick_sigma(rate_noise: float, sample_period: float) -> float:
@@ -86,10 +86,7 @@ def heading_kalman(
     """
     f1 = np.array([[1.0, -dt], [0.0, 1.0]])
     q1 = np.diag([(gyro_sigma * dt) ** 2, bias_walk**2 * dt])
-    m = max(int(every), 1)
-    powers = [np.linalg.matrix_power(f1, i) for i in range(m)]
-    f = np.linalg.matrix_power(f1, m)
-    q = sum(p @ q1 @ p.T for p in powers)
+    f, q = lift(f1, q1, every)
     h = np.array([[1.0, 0.0]])
     r = np.array([[max(sigma**2, 1e-12)]])
     gain, prior = steady_gain(f, h, q, r)

@@ -151,7 +151,7 @@ def pod_twist_maps(
 @njit(cache=True)
 def _odometry_kernel(
     pose, counts, prev, gain, couple, own_heading, use_imu, gyro, valid, interval,
-    imu_heading, since, last_rate, dt,
+    imu_heading, since, last_rate, dt, step, positions,
 ):
     n, k = counts.shape
     for i in range(n):
@@ -177,7 +177,11 @@ def _odometry_kernel(
             dx += couple[0] * dth
             dy += couple[1] * dth
         ex, ey, eh = exp_one(dx, dy, dth)
-        pose[i, 0], pose[i, 1], pose[i, 2] = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], ex, ey, eh)
+        step[i, 0], step[i, 1], step[i, 2] = ex, ey, eh
+        if positions:
+            pose[i, 0], pose[i, 1], pose[i, 2] = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], ex, ey, eh)
+        else:  # the heading alone, as compose_one gives it
+            pose[i, 2] = wrap_one(pose[i, 2] + eh)
 
 
 class Odometry:
@@ -199,6 +203,9 @@ class Odometry:
         Pods: wheel radius [m] and counts per revolution.
     no_sideslip : bool
         Pods: assume no sideways motion (skid/differential), so two pods suffice.
+    positions : bool
+        Keep x, y of :attr:`pose` (default). Without, only the heading is kept (x, y stay at
+        the start): for a caller that uses :attr:`increment` alone, and saves the rotation.
 
     Examples
     --------
@@ -223,7 +230,9 @@ class Odometry:
         pod_radius: float | np.ndarray | None = None,
         pod_counts_per_rev: float | np.ndarray | None = None,
         no_sideslip: bool = False,
+        positions: bool = True,
     ) -> None:
+        self._positions = bool(positions)
         if source not in SOURCES:
             raise ScenarioError(
                 f"odometry: source must be one of {', '.join(map(repr, SOURCES))}, "
@@ -262,6 +271,13 @@ class Odometry:
         self.reset(np.zeros((0, 3)))
 
     @property
+    def increment(self) -> np.ndarray:
+        """The last update's move, shape (N, 3): the body-frame pose of the new estimate seen
+        from the previous one, dx [m], dy [m], dtheta [rad] (the odometry's own array, zero
+        after :meth:`reset` and the first update)."""
+        return self._step
+
+    @property
     def pose(self) -> np.ndarray:
         """Current estimate, shape (N, 3): x [m], y [m], heading [rad], field frame (a copy)."""
         return self._pose.copy()
@@ -278,20 +294,24 @@ class Odometry:
         self._imu_heading = pose0[:, 2].copy()
         self._since = np.zeros(n)
         self._last_rate = np.zeros(n)
-        self._no_gyro = np.zeros(n)
-        self._no_valid = np.zeros(n, dtype=np.bool_)
+        self._step = np.zeros((n, 3))
+        self._zeros = np.zeros(n)  # gyro stand-ins without an IMU (read only by the kernel)
+        self._false = np.zeros(n, dtype=np.bool_)
 
-    def update(self, readings: Readings) -> np.ndarray:
+    def update(self, readings: Readings, *, copy: bool = True) -> np.ndarray:
         """Advance by one tick of readings.
 
         Parameters
         ----------
         readings : Readings
             Of the N robots; the first call after :meth:`reset` only latches the counts.
+        copy : bool
+            Return a copy (default), or the odometry's own array, valid until the next call
+            (for a caller that reads it at once and must not allocate every tick).
 
         Returns
         -------
-        ndarray, shape (N, 3) — pose estimate, field frame (a copy)
+        ndarray, shape (N, 3) — pose estimate, field frame
         """
         counts = getattr(readings, self._field)
         if counts is None:
@@ -309,7 +329,7 @@ class Odometry:
         if self._prev is None:
             self._prev = counts.copy()
             self._t_prev = readings.t
-            return self._pose.copy()
+            return self._pose.copy() if copy else self._pose
         if self.use_imu:
             if readings.gyro_rate is None or readings.imu_valid is None or readings.gyro_interval is None:
                 raise ScenarioError(
@@ -317,13 +337,13 @@ class Odometry:
                 )
             gyro, valid, interval = readings.gyro_rate, readings.imu_valid, readings.gyro_interval
         else:
-            gyro = interval = self._no_gyro
-            valid = self._no_valid
+            gyro = interval = self._zeros
+            valid = self._false
         _odometry_kernel(
             self._pose, counts, self._prev, self._gain, self._couple, self._own_heading,
             self.use_imu, as_rows(gyro, (n,)), np.asarray(valid, np.bool_),
             as_rows(interval, (n,)), self._imu_heading, self._since, self._last_rate,
-            float(readings.t - self._t_prev),
+            float(readings.t - self._t_prev), self._step, self._positions,
         )
         self._t_prev = readings.t
-        return self._pose.copy()
+        return self._pose.copy() if copy else self._pose

@@ -11,8 +11,11 @@ from functools import cached_property
 
 import numpy as np
 import shapely
-from numba import njit
 from shapely.geometry import LineString, Point, Polygon
+
+from planners.raycast import ray_cast_kernel
+
+__all__ = ["Field", "Landmark", "Patch", "ray_cast_kernel"]
 
 
 @dataclass(frozen=True)
@@ -133,28 +136,3 @@ class Field:
         out = np.empty(origin.shape[0])
         ray_cast_kernel(self.segments, origin, direction, float(max_range), out)
         return out
-
-
-@njit(cache=True)
-def ray_cast_kernel(segs, origin, direction, max_range, out):
-    """Compiled ray cast: first crossing of each ray with the wall segments (see Field.ray_cast)."""
-    for i in range(origin.shape[0]):
-        ox = origin[i, 0]
-        oy = origin[i, 1]
-        dx = np.cos(direction[i])
-        dy = np.sin(direction[i])
-        best = np.inf
-        for j in range(segs.shape[0]):
-            ex = segs[j, 2] - segs[j, 0]
-            ey = segs[j, 3] - segs[j, 1]
-            den = dx * ey - dy * ex
-            if abs(den) < 1e-15:
-                continue
-            wx = segs[j, 0] - ox
-            wy = segs[j, 1] - oy
-            # origin + t d = a + u e  ->  t = (w x e) / (d x e), u = (w x d) / (d x e)
-            t = (wx * ey - wy * ex) / den
-            u = (wx * dy - wy * dx) / den
-            if t >= 0.0 and 0.0 <= u <= 1.0 and t < best:
-                best = t
-        out[i] = best if best <= max_range else np.inf

@@ -245,7 +245,7 @@ class Simulation:
         self.estimate = self.estimator.update(t, readings)
         self.covariance = getattr(self.estimator, "covariance", None)
         if self.odometry is not None:
-            self.odometry.update(readings)
+            self.odometry.update(readings, copy=False)
         cmd = self.tracker.command(t, self.estimate, moving)
         self.command = cmd
         if cmd.duty is not None:

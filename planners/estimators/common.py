@@ -22,8 +22,52 @@ SOURCE_PARAM = Param(
 )
 
 
-def make_odometry(context: dict[str, Any], source: str, *, where: str) -> Odometry:
+MOTION_PARAMS: dict[str, Param] = {
+    "distance_noise": Param(
+        "dimensionless", 0.02, "position std after 1 m driven [m/sqrt(m)]", ge=0.0
+    ),
+    "turn_noise": Param(
+        "dimensionless", 0.05, "heading std after 1 rad turned [rad/sqrt(rad)]", ge=0.0
+    ),
+    "drift_noise": Param(
+        "dimensionless", 0.02, "heading std after 1 m driven [rad/sqrt(m)]", ge=0.0
+    ),
+    "lateral_noise": Param(
+        "dimensionless", None,
+        "sideways position std after 1 m driven [m/sqrt(m)] (default: distance_noise)", ge=0.0,
+    ),
+    "floor_xy": Param("length", 1e-4, "per-tick position noise floor", ge=0.0),
+    "floor_heading": Param("angle", 1e-4, "per-tick heading noise floor", ge=0.0),
+}
+
+
+def motion_noise(context: dict[str, Any], p: dict[str, Any]) -> np.ndarray:
+    """Coefficients (7,) of the odometry increment noise from the :data:`MOTION_PARAMS`.
+
+    distance^2, lateral^2, turn^2, drift^2, gyro variance per tick (``N^2 T`` with the
+    IMU's white rate noise density ``N``, IEEE Std 952-1997 angle random walk; -1 when the
+    source's heading is not the gyro's), floor_xy^2, floor_heading^2. The variances they give
+    are in :func:`planners.estimators.ekf_kernels.increment_variances`.
+    """
+    kd, kt, kh = (float(p[k]) for k in ("distance_noise", "turn_noise", "drift_noise"))
+    kl = kd if p["lateral_noise"] is None else float(p["lateral_noise"])
+    imu = getattr(context.get("sensors"), "imu", None)
+    gyro_var = (
+        float(getattr(imu, "rate_noise", 0.0)) ** 2 * float(context["dt"])
+        if p["source"].endswith("+imu") else -1.0
+    )
+    return np.array([
+        kd * kd, kl * kl, kt * kt, kh * kh, gyro_var,
+        float(p["floor_xy"]) ** 2, float(p["floor_heading"]) ** 2,
+    ])
+
+
+def make_odometry(
+    context: dict[str, Any], source: str, *, where: str, positions: bool = True
+) -> Odometry:
     """Build the :class:`Odometry` of ``source`` from the runner's context.
+
+    ``positions=False`` for a caller that reads only :attr:`Odometry.increment`.
 
     Raises
     ------
@@ -61,7 +105,7 @@ def make_odometry(context: dict[str, Any], source: str, *, where: str) -> Odomet
         )
     if source.endswith("+imu") and getattr(sensors, "imu", None) is None:
         raise ScenarioError(f"{where}: sensors.imu must be present for source {source!r}, got None")
-    return Odometry(source=source, **odo_args)
+    return Odometry(source=source, positions=positions, **odo_args)
 
 
 def need_fixes(context: dict[str, Any], *, where: str) -> None:
@@ -89,6 +133,38 @@ def valid_fixes(readings: Any, n: int) -> np.ndarray:
     if readings.fix is None or readings.fix_valid is None:
         return np.zeros(n, dtype=bool)
     return np.asarray(readings.fix_valid, dtype=bool) & np.all(np.isfinite(readings.fix), axis=1)
+
+
+class FixFeed:
+    """This tick's fixes as contiguous arrays for a compiled kernel, without allocating.
+
+    ``sigma`` (3,) and ``variance`` (3,) follow the readings' ``fix_sigma`` (else the fix
+    sensor's configuration) and are recomputed only when the readings carry a new array.
+    """
+
+    _UNSET = object()
+
+    def __init__(self, context: dict[str, Any]) -> None:
+        self._context = context
+        self._seen: object = self._UNSET
+        self.sigma = np.ones(3)
+        self.variance = np.ones(3)
+        self._none = (np.empty((0, 3)), np.empty(0, dtype=np.bool_), np.empty(0))
+
+    def arrays(self, readings: Any, n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """fix (N, 3), valid (N,), time (N,) — shape (0, ...) arrays when there is no fix."""
+        if readings.fix is None or readings.fix_valid is None:
+            return self._none
+        if readings.fix_sigma is not self._seen:
+            self.sigma = fix_sigma(self._context, readings)
+            self.variance = self.sigma**2
+            self._seen = readings.fix_sigma
+        stamp = readings.fix_time
+        return (
+            np.ascontiguousarray(readings.fix, dtype=np.float64),
+            np.ascontiguousarray(readings.fix_valid, dtype=np.bool_),
+            self._none[2] if stamp is None else np.ascontiguousarray(stamp, dtype=np.float64).reshape(n),
+        )
 
 
 def as_start(pose0: np.ndarray, n: int) -> np.ndarray:

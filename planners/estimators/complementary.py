@@ -5,6 +5,14 @@ the gyro integral passes above ``fc`` and the reference heading (odometry every 
 fixes at the fix rate with ``T`` the fix period) below it. The innovation is wrapped, so
 the blend is written ``theta = p + (1 - a) wrap(theta_ref - p)`` with ``p`` the gyro
 prediction. Position: odometry increments laid along this heading.
+
+Sources: the linear complementary filter, two filters that sum to one (``F_L(s) = C/(s + C)``
+on the reference, ``F_H(s) = s/(s + C)`` on the integrated gyro, crossover ``C = 2 pi fc``),
+Mahony, Hamel, Pflimlin, "Nonlinear complementary filters on the special orthogonal group",
+IEEE Transactions on Automatic Control, 2008, §III (here on the heading angle alone, where the
+group is the circle and the filter is linear in the wrapped error); discretised by ``z =
+exp(sT)`` (Franklin, Powell, Workman, *Digital Control of Dynamic Systems*, 1998, §6.3.2),
+which gives ``a`` above.
 """
 
 from __future__ import annotations

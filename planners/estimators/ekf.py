@@ -27,6 +27,17 @@ current state as if it were current. A fix whose squared Mahalanobis distance
 ``reacquire`` rejections in a row the filter restarts from the next fix (pose = fix,
 covariance = fix covariance), so a filter that has drifted far (wheel slip) cannot lock
 itself out of every later fix.
+
+Range sensors (``ranges = true``): each beam is a scalar measurement of the distance to the
+first wall along its ray, ``z = t(x) + v``, ``v ~ N(0, range_sigma^2)``. The expected range
+``t`` is cast from the estimate against the field's wall segments (:mod:`planners.raycast`)
+and ``H = dt/dx`` is its analytic gradient against the hit wall's line (checked against
+central differences in the tests). Beams are applied one after another (scalar updates, no
+matrix inverse), gated by ``nu^2 / s`` against ``range_gate`` (chi-square, 1 dof); a beam
+reading ``inf`` (no wall within its range) is not used. Ranges are current; they are kept in
+the history, so a late fix re-applies them after each re-applied increment.
+
+Every step is one compiled call per tick over the batch (:mod:`planners.estimators.ekf_kernels`).
 """
 
 from __future__ import annotations
@@ -37,61 +48,17 @@ from typing import Any, ClassVar
 import numpy as np
 
 from planners.estimators import ESTIMATORS
+from planners.estimators.beams import RANGE_SIGMA_PARAM, Beams, beam_readings, make_beams
 from planners.estimators.common import (
-    SOURCE_PARAM, as_start, fix_sigma, make_odometry, valid_fixes, split_params,
+    MOTION_PARAMS, SOURCE_PARAM, FixFeed, as_start, make_odometry, motion_noise, split_params,
 )
+from planners.estimators.ekf_kernels import ekf_tick
 from planners.params import Param
 from planners.readings import Readings
-from planners.se2 import between, compose, wrap
-
-
-def predict(
-    pose: np.ndarray, cov: np.ndarray, step: np.ndarray, q_body: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """One EKF prediction by odometry increments.
-
-    Parameters
-    ----------
-    pose : ndarray, shape (M, 3) — field frame; cov : ndarray, shape (M, 3, 3)
-    step : ndarray, shape (M, 3) — increment, body frame [m, m, rad]
-    q_body : ndarray, shape (M, 3) — variances of the increment, body frame
-
-    Returns
-    -------
-    pose, cov : the predicted pose (M, 3) and covariance (M, 3, 3)
-    """
-    c, s = np.cos(pose[:, 2]), np.sin(pose[:, 2])
-    m = pose.shape[0]
-    fx = np.tile(np.eye(3), (m, 1, 1))
-    fx[:, 0, 2] = -s * step[:, 0] - c * step[:, 1]
-    fx[:, 1, 2] = c * step[:, 0] - s * step[:, 1]
-    fu = np.zeros((m, 3, 3))
-    fu[:, 0, 0], fu[:, 0, 1], fu[:, 1, 0], fu[:, 1, 1], fu[:, 2, 2] = c, -s, s, c, 1.0
-    qf = fu @ (q_body[:, :, None] * np.swapaxes(fu, 1, 2))
-    return compose(pose, step), fx @ cov @ np.swapaxes(fx, 1, 2) + qf
-
-
-def correct(
-    pose: np.ndarray, cov: np.ndarray, fix: np.ndarray, r: np.ndarray, gate: float
-) -> tuple[np.ndarray, np.ndarray, bool]:
-    """One gated fix update of one robot: pose (3,), cov (3, 3), fix (3,), r (3, 3)."""
-    nu = fix - pose
-    nu[2] = wrap(nu[2])
-    s = cov + r
-    d2 = float(nu @ np.linalg.solve(s, nu))
-    if not d2 <= gate:
-        return pose, cov, False
-    k = np.linalg.solve(s.T, cov.T).T
-    a = np.eye(3) - k
-    out = pose + k @ nu
-    out[2] = wrap(out[2])
-    # Joseph form, symmetric and positive for any gain
-    return out, a @ cov @ a.T + k @ r @ k.T, True
-
 
 @ESTIMATORS.register("ekf")
 class PoseEKF:
-    """Pose EKF with odometry process, latency-aware fixes and chi-square gating, N robots.
+    """Pose EKF with odometry process, latency-aware fixes, range beams and chi-square gating.
 
     Parameters
     ----------
@@ -105,137 +72,102 @@ class PoseEKF:
     latency : {"replay", "ignore"} — re-apply increments after a late fix, or not
     history : float — how far back a late fix may reach [s]
     reacquire : int — rejected fixes in a row before restarting from the next fix
+    ranges : bool — use the range sensors against the field's walls
+    range_sigma : float or None — range noise assumed [m]
+    range_gate : float — chi-square threshold of a beam (1 dof; 6.63 is the 99 % quantile)
     **context : geometry, sensors, field, dt from the runner
+
+    Attributes
+    ----------
+    rejected : ndarray (N,) int — fixes rejected by the gate (or too old)
+    range_rejected : ndarray (N,) int — beams rejected by the gate
     """
 
     PARAMS: ClassVar[dict[str, Param]] = {
         "source": SOURCE_PARAM,
-        "distance_noise": Param(
-            "dimensionless", 0.02, "position std after 1 m driven [m/sqrt(m)]", ge=0.0
-        ),
-        "turn_noise": Param(
-            "dimensionless", 0.05, "heading std after 1 rad turned [rad/sqrt(rad)]", ge=0.0
-        ),
-        "drift_noise": Param(
-            "dimensionless", 0.02, "heading std after 1 m driven [rad/sqrt(m)]", ge=0.0
-        ),
-        "lateral_noise": Param(
-            "dimensionless", None,
-            "sideways position std after 1 m driven [m/sqrt(m)] (default: distance_noise)", ge=0.0,
-        ),
-        "floor_xy": Param("length", 1e-4, "per-tick position noise floor", ge=0.0),
-        "floor_heading": Param("angle", 1e-4, "per-tick heading noise floor", ge=0.0),
+        **MOTION_PARAMS,
         "gate": Param("dimensionless", 11.34, "chi-square gate of a fix (3 dof)", gt=0.0),
         "latency": Param(
             "choice", "replay", "late fixes: replay later increments or ignore age",
             choices=("replay", "ignore"),
         ),
-        "history": Param("time", 0.5, "how far back a late fix may reach", ge=0.0),
+        "history": Param(
+            "time", None,
+            "how far back a late fix may reach (default: the fix sensor's latency + 2 ticks)",
+            ge=0.0,
+        ),
         "reacquire": Param(
             "count", 5, "rejected fixes in a row before restarting from the next", ge=1
         ),
+        "ranges": Param("bool", False, "use the range sensors against the field's walls"),
+        "range_sigma": RANGE_SIGMA_PARAM,
+        "range_gate": Param("dimensionless", 6.63, "chi-square gate of a range beam (1 dof)", gt=0.0),
     }
 
     def __init__(self, **kwargs: Any) -> None:
-        context, p = split_params("estimator.ekf", self.PARAMS, kwargs)
-        self._context = context
-        self._odo = make_odometry(context, p["source"], where="estimator.ekf")
-        self.noise = (float(p["distance_noise"]), float(p["turn_noise"]), float(p["drift_noise"]))
-        lateral = p["lateral_noise"]
-        self.lateral = self.noise[0] if lateral is None else float(lateral)
-        imu = getattr(context.get("sensors"), "imu", None)
-        # white gyro noise integrated over one tick: N^2 T (IEEE Std 952-1997 angle random walk)
-        self.gyro_var = (
-            float(getattr(imu, "rate_noise", 0.0)) ** 2 * float(context["dt"])
-            if p["source"].endswith("+imu") else None
-        )
-        self.floor = (float(p["floor_xy"]) ** 2, float(p["floor_heading"]) ** 2)
+        where = "estimator.ekf"
+        context, p = split_params(where, self.PARAMS, kwargs)
+        self._odo = make_odometry(context, p["source"], where=where, positions=False)
+        self._noise = motion_noise(context, p)
         self.gate = float(p["gate"])
         self.latency = p["latency"]
         self.reacquire = int(p["reacquire"])
-        history = float(p["history"])
-        dt = float(context["dt"])
-        self._dt = dt
-        self._depth = max(1, int(math.ceil(history / dt)) + 1)
+        self._dt = float(context["dt"])
+        history = p["history"]
+        if history is None:
+            fixes = getattr(context.get("sensors"), "fixes", None)
+            # (a fix sensor that states no latency is given 0.5 s)
+            history = 0.0 if fixes is None else float(getattr(fixes, "latency", 0.5)) + 2.0 * self._dt
+        self._depth = max(1, int(math.ceil(float(history) / self._dt - 1e-9)) + 1)
+        self.beams: Beams | None = (
+            make_beams(context, p["range_sigma"], where=where, required=True) if p["ranges"] else None
+        )
+        self.range_gate = float(p["range_gate"])
+        self._fixes = FixFeed(context)
         self.reset(np.zeros((0, 3)), 0)
 
     def reset(self, pose0: np.ndarray, n: int, *, rngs: list | None = None) -> None:
         """Start at ``pose0`` (N, 3) [m, m, rad], field frame, with a tiny covariance."""
-        self._pose = as_start(pose0, n)
+        self._pose = np.ascontiguousarray(as_start(pose0, n))
         self._cov = np.tile(np.diag([1e-8, 1e-8, 1e-8]), (n, 1, 1))
+        self._cs = np.column_stack([np.cos(self._pose[:, 2]), np.sin(self._pose[:, 2])])
         self._odo.reset(self._pose)
-        self._odo_prev = self._pose.copy()
         h = self._depth
+        r = 0 if self.beams is None else self.beams.count
         self._h_time = np.full(h, -np.inf)
-        self._h_pose = np.zeros((n, h, 3))
-        self._h_cov = np.zeros((n, h, 3, 3))
-        self._h_step = np.zeros((n, h, 3))
-        self._h_q = np.zeros((n, h, 3))
+        # one tick's rows are contiguous (a tick writes them, a replay walks them): (H, N, ...)
+        self._hist = np.zeros((h, n, 12))
+        self._h_range = np.full((h, n, r), np.nan)
+        self._replay_back = np.zeros(n, dtype=np.int64)
         self._tick = 0
         self.rejected = np.zeros(n, dtype=np.int64)
+        self.range_rejected = np.zeros(n, dtype=np.int64)
         self._streak = np.zeros(n, dtype=np.int64)
-
-    def _q_body(self, step: np.ndarray) -> np.ndarray:
-        kd, kt, kh = self.noise
-        d = np.hypot(step[:, 0], step[:, 1])
-        sd2 = kd * kd * d + self.floor[0]
-        sl2 = self.lateral * self.lateral * d + self.floor[0]
-        if self.gyro_var is None:
-            st2 = kt * kt * np.abs(step[:, 2]) + kh * kh * d + self.floor[1]
-        else:
-            st2 = self.gyro_var + kt * kt * np.abs(step[:, 2]) + self.floor[1]
-        return np.column_stack([sd2, sl2, st2])
+        self._work = np.zeros((5, 3, 3))
+        self._no_beams = (np.empty((n, 0)), np.empty((n, 0), dtype=np.bool_))
+        b = self.beams
+        self._beam_args = (
+            (np.zeros((0, 4)), np.zeros((0, 3)), np.zeros(0)) if b is None
+            else (b.segments, b.mounts, b.variance)
+        )
 
     def update(self, t: float, readings: Readings) -> np.ndarray:
         """Pose estimate (N, 3), field frame; :attr:`covariance` follows."""
-        n = self._pose.shape[0]
-        odo = self._odo.update(readings)
-        step = between(self._odo_prev, odo)
-        self._odo_prev = odo
-        q = self._q_body(step)
-        self._pose, self._cov = predict(self._pose, self._cov, step, q)
+        self._odo.update(readings, copy=False)
         slot = self._tick % self._depth
         self._tick += 1
-        self._h_time[slot] = t
-        self._h_pose[:, slot], self._h_cov[:, slot] = self._pose, self._cov
-        self._h_step[:, slot], self._h_q[:, slot] = step, q
-        mask = valid_fixes(readings, n)
-        if mask.any():
-            r = np.diag(fix_sigma(self._context, readings) ** 2)
-            stamp = readings.fix_time if readings.fix_time is not None else np.full(n, t)
-            for i in np.flatnonzero(mask):
-                self._fold_fix(i, np.asarray(readings.fix[i], float), float(stamp[i]), r, t)
+        fix, valid, stamp = self._fixes.arrays(readings, self._pose.shape[0])
+        ranges, range_valid = beam_readings(readings, self.beams, self._no_beams)
+        segs, mounts, var = self._beam_args
+        ekf_tick(
+            float(t), self._dt, self._odo.increment, self._pose, self._cov, self._cs, self._noise,
+            self._h_time, slot, min(self._tick, self._depth), self._hist, self._h_range,
+            fix, valid, stamp, self._fixes.variance, self.gate, self.latency == "replay", self.reacquire,
+            self._streak, self.rejected,
+            ranges, range_valid, segs, mounts, var, self.range_gate, self.range_rejected,
+            self._replay_back, self._work,
+        )
         return self._pose.copy()
-
-    def _fold_fix(self, i: int, fix: np.ndarray, stamp: float, r: np.ndarray, t: float) -> None:
-        # ring slots oldest -> newest
-        order = (np.arange(self._depth) + self._tick) % self._depth
-        order = order[np.isfinite(self._h_time[order])]
-        if self.latency == "ignore" or not np.isfinite(stamp) or stamp >= t:
-            pos = len(order) - 1
-        else:
-            times = self._h_time[order]
-            pos = int(np.argmin(np.abs(times - stamp)))
-            if stamp < times[0] - 0.5 * self._dt:
-                self.rejected[i] += 1  # older than the history: nothing to attach it to
-                return
-        j = order[pos]
-        if self._streak[i] >= self.reacquire:
-            pose, cov, ok = fix.copy(), r.copy(), True
-            pose[2] = wrap(pose[2])
-        else:
-            pose, cov, ok = correct(self._h_pose[i, j].copy(), self._h_cov[i, j], fix, r, self.gate)
-        if not ok:
-            self.rejected[i] += 1
-            self._streak[i] += 1
-            return
-        self._streak[i] = 0
-        self._h_pose[i, j], self._h_cov[i, j] = pose, cov
-        p, c = pose[None], cov[None]
-        for k in order[pos + 1:]:
-            p, c = predict(p, c, self._h_step[i, k][None], self._h_q[i, k][None])
-            self._h_pose[i, k], self._h_cov[i, k] = p[0], c[0]
-        self._pose[i], self._cov[i] = p[0], c[0]
 
     @property
     def covariance(self) -> np.ndarray:

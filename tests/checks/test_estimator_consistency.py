@@ -1,4 +1,6 @@
-"""Filter consistency by the normalised estimation error squared (NEES), and global localisation.
+"""Filter consistency by the normalised estimation error squared (NEES) on synthetic data
+drawn from each filter's own model (the bundled-scenario checks are in
+test_estimators_on_bundled_scenarios.py, global localisation in test_particle_global.py).
 
 NEES test (Bar-Shalom, Li, Kirubarajan, *Estimation with Applications to Tracking and
 Navigation*, 2001, §5.4.2): with M Monte Carlo runs of a consistent filter of an n-state,
@@ -18,12 +20,9 @@ from scipy.stats import chi2
 from planners.estimators import ESTIMATORS
 from planners.readings import Readings
 from planners.se2 import compose, exp, wrap
-from sim.runner import Simulation
-from sim.scenario import load_scenario
 from tests.planners.test_estimator_fixtures import CPR, DT, context
 
 RUNS = 200
-SHORT = "route.waypoint=[{at=[4.0, 0.7]}, {at=[6.5, 0.7]}, {at=[8.6, 1.0]}]"
 
 
 def _bounds(m: int, n: int) -> tuple[float, float]:
@@ -119,57 +118,6 @@ def test_kalman_heading_consistent_when_its_model_is_true() -> None:
         q.append(np.mean(err**2 / est.heading_variance))
     lo, hi = _bounds(RUNS, 1)  # 0.81, 1.21; measured 0.92
     assert lo < np.mean(q[100:]) < hi
-
-
-def test_ekf_consistent_on_the_greenhouse_drift_lap() -> None:
-    # 200 seeded runs of the bundled drift scenario (first 6 s of the lap, fixes 100 ms late).
-    # The noise values are the filter's tuning for this cart, found with this very test
-    # (Bar-Shalom et al. §5.4.2 use NEES to tune Q): the test guards that the filter as
-    # tuned stays consistent in the full simulation. Defaults give 0.89 (underconfident).
-    ekf = (
-        'estimator={kind="ekf", source="encoders+imu", distance_noise=0.0075, '
-        'lateral_noise=0.0006, turn_noise=0.001, floor_xy=1e-6, floor_heading=1e-6}'
-    )
-    sc = load_scenario("scenarios/greenhouse-drift.toml", [SHORT, ekf])
-    cards = [r.scorecard for r in Simulation(sc, runs=range(RUNS)).run()]
-    mean = float(np.mean([c["nees_mean"] for c in cards]))
-    lo, hi = _bounds(RUNS, 3)
-    assert lo < mean < hi  # measured 3.10 in (2.67, 3.35)
-
-
-def _global_localisation(reset_gate: float, seconds: float) -> tuple[np.ndarray, np.ndarray]:
-    # the cart follows its route on the truth estimator; a second estimator, the particle
-    # filter started uniformly over the floor, reads the very same sensor readings
-    sc = load_scenario(
-        "scenarios/greenhouse-drift.toml", [SHORT, "sensors.fixes.latency=0", "estimator.kind=truth"]
-    )
-    runs = 100
-    sim = Simulation(sc, runs=range(runs))
-    pf = ESTIMATORS.get("particle")(
-        geometry=sim.geom, sensors=sc.sensors, field=sc.field, dt=sim.dt, particles=500,
-        init="uniform", source="encoders+imu", reset_gate=reset_gate,
-    )
-    rngs = [np.random.default_rng(np.random.SeedSequence(5, spawn_key=(k,))) for k in range(runs)]
-    pf.reset(sim.world.pose, runs, rngs=rngs)
-    start = np.sqrt(np.trace(pf.covariance[:, :2, :2], axis1=1, axis2=2))  # cloud radius [m]
-    while sim.t < seconds:
-        truth = sim.world.pose.copy()
-        sim.step()
-        est = pf.update(sim.t - sim.dt, sim.readings)
-    return np.hypot(*(est[:, :2] - truth[:, :2]).T), start
-
-
-def test_particle_filter_finds_the_cart_from_a_uniform_start() -> None:
-    # issue 7's requirement: within 5 cm in at least 95 % of 100 seeded runs, here after 1 s
-    # (fixes 10 Hz, 10 % dropout; the particle filter does not model fix latency, so fixes
-    # are current). Measured: 100 % within 5 cm at 0.5 s and at 1 s, p95 error 2.0 cm.
-    err, spread = _global_localisation(11.34, 1.0)
-    assert np.median(spread) > 1.0  # the cloud really started spread over the floor [m]
-    assert np.mean(err < 0.05) >= 0.95
-    # without sensor resetting (the default), 500 particles over 33 m^2 x 2 pi leave the nearest one
-    # ~40 sigma from the first fix and the cloud collapses onto it (measured: 0-3 %)
-    lost, _ = _global_localisation(0.0, 1.0)
-    assert np.mean(lost < 0.05) < 0.2
 
 
 def test_gyro_heading_variance_grows_as_angle_random_walk() -> None:

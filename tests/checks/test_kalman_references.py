@@ -4,11 +4,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+import scipy.linalg
 from filterpy.kalman import KalmanFilter
 
 import control
 from planners.estimators import ESTIMATORS
-from planners.filters import LinearKalman, steady_gain
+from planners.filters import LinearKalman, periodic_gains, steady_gain
 from tests.planners.test_estimator_fixtures import DT, context, drive
 
 KW = dict(gyro_sigma=0.03, bias_walk=2e-3, bias_sigma=0.02)
@@ -109,11 +110,46 @@ def test_scalar_random_walk_closed_form(q: float, r: float) -> None:
     assert k[0, 0] == pytest.approx(p_ref / (p_ref + r), rel=1e-12)
 
 
-def test_steady_mode_uses_the_dare_gain() -> None:
-    truth, readings = drive(1, 200, np.random.default_rng(13))
+def test_steady_fix_gain_is_the_dare_of_the_model_over_the_fix_period() -> None:
+    # fixes every M = 20 ticks (10 Hz at 200 Hz): between two fixes the model is F^M with
+    # Q_M = sum F^i Q F^i'; the steady fix gain is that lifted model's DARE gain
+    # (reference: scipy.linalg.solve_discrete_are, and python-control dlqe(F^M, I, H, Q_M, R)
+    # whose predictor gain is F^M K), not the one-tick DARE gain (about 7 times smaller here)
+    truth, readings = drive(1, 400, np.random.default_rng(13))
     est = ESTIMATORS.get("kalman")(mode="steady", measure="fixes", **KW, **context())
     f, _, q, h, r = _model()
-    np.testing.assert_allclose(est._gains["fixes"], steady_gain(f, h, q, r)[0], rtol=1e-12)
+    fm = np.linalg.matrix_power(f, 20)
+    qm = sum(np.linalg.matrix_power(f, i) @ q @ np.linalg.matrix_power(f, i).T for i in range(20))
+    p = scipy.linalg.solve_discrete_are(fm.T, h.T, qm, r)
+    k_ref = p @ h.T @ np.linalg.inv(h @ p @ h.T + r)
+    np.testing.assert_allclose(est._gains["fixes"], k_ref, rtol=1e-10)
+    l_ref, p_ref, _ = control.dlqe(fm, np.eye(2), h, qm, r)
+    np.testing.assert_allclose(fm @ est._gains["fixes"], l_ref, rtol=1e-8)
+    assert est._gains["fixes"][0, 0] > 5.0 * steady_gain(f, h, q, r)[0][0, 0]
     est.reset(truth[0], 1)
     out = np.array([est.update(rd.t, rd) for rd in readings])
     assert np.abs(out[:, 0, 2] - truth[:, 0, 2]).max() < 0.05
+
+
+def test_periodic_gains_equal_the_settled_time_varying_filter() -> None:
+    # odometry heading every tick and fixes every 20th: the periodic steady state, found by
+    # lifting one period (planners.filters.periodic_gains), must be where the time-varying
+    # filter settles (the recursion verified against filterpy above); Simon, Optimal State
+    # Estimation, 2006, ch. 7 (steady state) and §7.1 (correlated noise of the lifted model)
+    f, _, q, h, r_fix = _model()
+    r_odo = np.array([[0.05**2]])
+    schedule = [[(h, r_odo), (h, r_fix)]] + [[(h, r_odo)] for _ in range(19)]
+    prior, gains = periodic_gains(f, q, schedule)
+    p = np.eye(2)
+    for period in range(4000):
+        for j, tick in enumerate(schedule):
+            p = f @ p @ f.T + q
+            if j == 0:
+                settled_prior = p.copy()
+            for m, (hh, rr) in enumerate(tick):
+                k = p @ hh.T @ np.linalg.inv(hh @ p @ hh.T + rr)
+                if period == 3999:
+                    np.testing.assert_allclose(k, gains[j][m], rtol=1e-9)
+                a = np.eye(2) - k @ hh
+                p = a @ p @ a.T + k @ rr @ k.T
+    np.testing.assert_allclose(prior, settled_prior, rtol=1e-9)

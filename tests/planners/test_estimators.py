@@ -100,3 +100,28 @@ def test_params_are_checked_with_a_suggestion() -> None:
         ESTIMATORS.get("kalman")(mode="stedy", **context())
     with pytest.raises(ScenarioError, match="estimator.ekf: gait must be one of .*did you mean gate"):
         ESTIMATORS.get("ekf")(gait=3.0, **context())
+
+
+def test_ekf_ranges_need_range_sensors_and_walls() -> None:
+    with pytest.raises(ScenarioError, match=r"estimator.ekf: ranges needs \[\[sensors.range\]\] on the robot, got none"):
+        ESTIMATORS.get("ekf")(ranges=True, **context())
+    ctx = context(ranges=True)
+    ctx["field"].segments = np.zeros((0, 4))
+    with pytest.raises(ScenarioError, match="estimator.ekf: ranges needs a field with walls, got 0 wall segments"):
+        ESTIMATORS.get("ekf")(ranges=True, **ctx)
+
+
+def test_particle_runs_on_range_sensors_without_fixes() -> None:
+    est = ESTIMATORS.get("particle")(particles=100, **context(fixes=False, ranges=True))
+    assert est.beams is not None and est.beams.count == 3
+    with pytest.raises(ScenarioError, match="estimator.particle: init must be 'start' on a field without walls"):
+        ESTIMATORS.get("particle")(init="uniform", **context())
+
+
+def test_constant_velocity_model_takes_fixes_only() -> None:
+    with pytest.raises(ScenarioError, match="estimator.kalman: measure must be 'fixes' with model 'constant-velocity', got 'both'"):
+        ESTIMATORS.get("kalman")(model="constant-velocity", measure="both", **context())
+    with pytest.raises(ScenarioError, match="estimator.kalman: sensors.fixes must be present"):
+        ESTIMATORS.get("kalman")(model="constant-velocity", **context(fixes=False))
+    # no IMU needed: it tracks the fixes alone
+    ESTIMATORS.get("kalman")(model="constant-velocity", **context(imu=False))
