@@ -4,10 +4,8 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import threading
 from collections.abc import Mapping
 
-import numba
 
 import numpy as np
 
@@ -16,6 +14,7 @@ from planners.kinematics import ChassisGeometry
 from sim.config_robot import Robot
 from sim.field import Field
 from sim.motors import motor_constants
+from sim.thread_choice import ThreadChoice
 from sim.physics import BLOCK, COLUMNS, G0, MAX_WHEELS, ROBOT_ROWS, WHEEL_ROWS, step_kernel, step_kernel_parallel
 from sim.contact import DAMPING_RATIO, STIFFNESS
 
@@ -153,8 +152,8 @@ class World:
     compiled kernel updates in place: read them, copy what must be kept.
     """
 
-    #: batches at least this large spread the physics over numba's threads (below it the
-    #: threads cost more than they save; measured with ``skidpad bench physics``)
+    #: batches at least this large may spread the physics over numba's threads, when the
+    #: clock says it pays (sim.thread_choice; below two blocks it never does)
     PARALLEL_MIN = BLOCK + 1
 
     def __init__(
@@ -201,7 +200,7 @@ class World:
         self._robot = np.zeros((len(ROBOT_ROWS), n))
         self._robot[0] = self.params[COLUMNS.index("battery_voltage")]
         self._wheel[WHEEL_ROWS.index("load")] = self.params[len(COLUMNS):].T
-        self._parallel = n >= self.PARALLEL_MIN
+        self._threads = ThreadChoice() if n >= self.PARALLEL_MIN else None
         # (N, W), or (N, 2) [left, right] for skid and differential
         self._duty_shapes = {(n, w)} | ({(n, 2)} if self.geom.kind != "mecanum" else set())
         self.pose, self.velocity = self._body
@@ -290,12 +289,7 @@ class World:
             self._dt = dt
             self._steps = max(1, int(math.ceil(dt / self.substep - 1e-9)))
         steps = self._steps
-        # numba's thread pool is entered from the main thread only (its workqueue layer is
-        # not re-entrant from other threads)
-        if self._parallel and numba.get_num_threads() > 1 and threading.current_thread() is threading.main_thread():
-            kernel = step_kernel_parallel
-        else:
-            kernel = step_kernel
+        kernel = step_kernel_parallel if self._threads is not None and self._threads.threaded() else step_kernel
         kernel(
             self._body, self._wheel, self._robot, d, self.params, self.layout, self.segs,
             self.patches, self.floor_scale, dt / steps, steps,
