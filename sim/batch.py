@@ -159,6 +159,7 @@ def run_batch(
     chunk: int = 256,
     work: Callable[[WorkUnit], list[dict]] = run_unit,
     on_unit: Callable[[int, int], None] | None = None,
+    pool: object | None = None,
 ) -> BatchOutcome:
     """Run ``runs`` runs of every scenario at every sweep point; write results under ``out``.
 
@@ -177,6 +178,8 @@ def run_batch(
     chunk : most runs stepped together in one Simulation
     work : the function run per unit (module level, so it pickles)
     on_unit : called as ``on_unit(runs_done, failures)`` after each unit is written
+    pool : a started process pool for the processes executor
+        (:func:`sim.batch_executors.make_pool`; the caller shuts it down), else one is made
 
     Returns
     -------
@@ -210,7 +213,7 @@ def run_batch(
     rows = list(old)
     outcome = BatchOutcome(out, rows, [], sweep_keys)
     writer = ResultsFile(results_path, columns)
-    finished = execute(units, work, executor=executor, jobs=jobs, scheduler=scheduler, client=client)
+    finished = execute(units, work, executor=executor, jobs=jobs, scheduler=scheduler, client=client, pool=pool)
     try:
         for unit, result, exc in finished:
             stem, seed = seeds[(unit.path, unit.sweep)]

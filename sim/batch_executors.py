@@ -8,6 +8,8 @@ that raised (then ``rows`` is None). The parent alone writes results.
 from __future__ import annotations
 
 import multiprocessing
+import sys
+import threading
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
@@ -37,12 +39,42 @@ def run_serial(units: Sequence, work: Callable) -> Iterator[Outcome]:
             yield u, rows, None
 
 
-def run_processes(units: Sequence, work: Callable, *, jobs: int) -> Iterator[Outcome]:
-    """Run units on ``jobs`` worker processes (forkserver where available, else spawn)."""
-    method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
+def start_method() -> str:
+    """How worker processes start: ``fork`` where it is safe, else forkserver or spawn.
+
+    A forked worker starts with this process's imports and loaded kernels (about a second
+    and a half saved per worker). It is safe on Linux while this process runs one thread and
+    numba's thread pool has not started (a fork copies no thread, so a pool or a lock held by
+    another thread would be broken in the child).
+    """
+    from numba.np.ufunc import parallel
+
+    methods = multiprocessing.get_all_start_methods()
+    if (
+        sys.platform == "linux" and "fork" in methods and threading.active_count() == 1
+        and not getattr(parallel, "_is_initialized", True)
+    ):
+        return "fork"
+    return "forkserver" if "forkserver" in methods else "spawn"
+
+
+def make_pool(jobs: int) -> ProcessPoolExecutor:
+    """A pool of ``jobs`` single-threaded workers, started now (see :func:`start_method`).
+
+    Start it before any other thread (a progress display) so that the workers can be forked.
+    """
     pool = ProcessPoolExecutor(
-        max_workers=jobs, mp_context=multiprocessing.get_context(method), initializer=single_threaded
+        max_workers=jobs, mp_context=multiprocessing.get_context(start_method()), initializer=single_threaded
     )
+    pool.submit(int).result()  # launches the workers (all of them at once when forked)
+    return pool
+
+
+def run_processes(units: Sequence, work: Callable, *, jobs: int, pool: ProcessPoolExecutor | None = None) -> Iterator[Outcome]:
+    """Run units on ``jobs`` worker processes (``pool`` when given: the caller shuts it down)."""
+    own = pool is None
+    if own:
+        pool = make_pool(jobs)
     try:
         pending = {pool.submit(work, u): u for u in units}
         while pending:
@@ -52,7 +84,11 @@ def run_processes(units: Sequence, work: Callable, *, jobs: int) -> Iterator[Out
                 exc = fut.exception()
                 yield (u, None, exc) if exc is not None else (u, fut.result(), None)
     finally:
-        pool.shutdown(wait=True, cancel_futures=True)
+        if own:
+            pool.shutdown(wait=True, cancel_futures=True)
+        else:  # the caller's pool stays, without this batch's queued units
+            for fut in pending:
+                fut.cancel()
 
 
 def _distributed():
@@ -99,17 +135,18 @@ def run_dask(
 
 def execute(
     units: Sequence, work: Callable, *, executor: str, jobs: int = 1,
-    scheduler: str | None = None, client: object | None = None,
+    scheduler: str | None = None, client: object | None = None, pool: ProcessPoolExecutor | None = None,
 ) -> Iterator[Outcome]:
-    """Dispatch to the named executor (one of :data:`EXECUTORS`)."""
+    """Dispatch to the named executor (one of :data:`EXECUTORS`); ``pool``: a started process
+    pool for the processes executor (:func:`make_pool`)."""
     if executor == "serial":
         return run_serial(units, work)
     if executor == "processes":
-        return run_processes(units, work, jobs=jobs)
+        return run_processes(units, work, jobs=jobs, pool=pool)
     if executor == "dask":
         _distributed()  # fail before the batch starts when the extra is missing
         return run_dask(units, work, jobs=jobs, scheduler=scheduler, client=client)
     raise SkidpadError(f"--executor must be one of {', '.join(EXECUTORS)}, got {executor!r}")
 
 
-__all__ = ["EXECUTORS", "execute", "run_serial", "run_processes", "run_dask"]
+__all__ = ["EXECUTORS", "execute", "make_pool", "run_serial", "run_processes", "run_dask", "start_method"]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
 
 from sim.commands import add_set_option
 
@@ -52,7 +53,7 @@ def batch(args: argparse.Namespace) -> int:
     from sim.batch import make_groups, run_batch
 
     from sim.batch import parse_keep
-    from sim.batch_executors import _distributed
+    from sim.batch_executors import _distributed, make_pool
 
     # input errors before the progress bar appears
     parse_keep(args.keep_traces)
@@ -61,11 +62,16 @@ def batch(args: argparse.Namespace) -> int:
     groups = make_groups(args.scenarios, args.sweep, args.overrides)
     total = sum(args.runs if args.runs is not None else int(g.scenario.run.runs) for g in groups)
     console = Console()
+    # worker processes before the progress display's thread, so that they can be forked
+    pool = make_pool(args.jobs) if args.executor == "processes" else None
     progress = Progress(
         TextColumn("runs"), BarColumn(), MofNCompleteColumn(), TextColumn("failed {task.fields[failed]}"),
         TextColumn("left"), TimeRemainingColumn(), console=console, disable=args.no_progress,
     )
-    with progress:
+    with contextlib.ExitStack() as stack:
+        if pool is not None:
+            stack.callback(pool.shutdown, wait=True, cancel_futures=True)
+        stack.enter_context(progress)
         task = progress.add_task("batch", total=total, failed=0)
         done0 = 0
         if args.resume:
@@ -80,7 +86,7 @@ def batch(args: argparse.Namespace) -> int:
         outcome = run_batch(
             args.scenarios, out=args.out, runs=args.runs, sweeps=args.sweep, overrides=args.overrides,
             executor=args.executor, jobs=args.jobs, scheduler=args.scheduler, resume=args.resume,
-            keep_traces=args.keep_traces, chunk=args.chunk, on_unit=on_unit,
+            keep_traces=args.keep_traces, chunk=args.chunk, on_unit=on_unit, pool=pool,
         )
     print_summary(outcome.summary, outcome.sweep_keys, units=args.units, console=console)
     console.print(f"wrote {args.out}/results.csv ({len(outcome.rows)} rows, {outcome.failures} failed this time), "

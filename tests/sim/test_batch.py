@@ -165,3 +165,23 @@ def test_dask_local_cluster_equals_serial(reference, short, tmp_path):
         with distributed.Client(cluster) as client:
             out = run_batch([short], out=tmp_path, runs=7, chunk=3, executor="dask", client=client)
     assert _by_run(out.rows) == _by_run(reference.rows)
+
+
+def test_workers_are_forked_only_when_it_is_safe(monkeypatch):
+    import sys
+    import threading
+
+    from numba.np.ufunc import parallel
+
+    from sim import batch_executors
+
+    monkeypatch.setattr(parallel, "_is_initialized", False)
+    monkeypatch.setattr(threading, "active_count", lambda: 1)
+    expect = "fork" if sys.platform == "linux" else batch_executors.start_method()
+    assert batch_executors.start_method() == expect
+    # another thread (a progress display) or numba's started thread pool: no fork
+    monkeypatch.setattr(threading, "active_count", lambda: 2)
+    assert batch_executors.start_method() in ("forkserver", "spawn")
+    monkeypatch.setattr(threading, "active_count", lambda: 1)
+    monkeypatch.setattr(parallel, "_is_initialized", True)
+    assert batch_executors.start_method() in ("forkserver", "spawn")
