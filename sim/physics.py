@@ -47,8 +47,8 @@ from sim.physics_blocks import BLOCK, MAX_WHEELS, advance_block
 from sim.substep import (
     AX, AY, COLUMNS, CURRENT, DIVERGED, ESLIP, FX, FY, HALFL, HALFW, INERTIA, LOAD, MASS, MODEL,
     MU, RB, ROBOT_ROWS, SLIP, SPEED, ANGLE, TRANSFER, V0, VB, WHEEL_ROWS,
-    body_step, broad_phase, contact_count, floor_mu, runaway, second_moments, shifted_load,
-    wheel_step,
+    body_step, broad_phase, contact_count, floor_mu, heading_trig, keep_heading_trig, runaway,
+    second_moments, shifted_load, wheel_step,
 )
 
 G0 = 9.80665
@@ -67,7 +67,7 @@ def _advance_robot(i, body, wheel, robot, duty, p, layout, segs, patches, floor_
     kx, ky = second_moments(layout)
     x, y, th = body[0, i, 0], body[0, i, 1], body[0, i, 2]
     vx, vy, om = body[1, i, 0], body[1, i, 1], body[1, i, 2]
-    c, s = math.cos(th), math.sin(th)
+    c, s = heading_trig(robot, i, th)
     near_wall, near_patch = broad_phase(x, y, body[1, i], p, i, layout, segs, patches, h * steps)
     model = int(p[MODEL, i])
     heat = 0.0
@@ -132,6 +132,7 @@ def _advance_robot(i, body, wheel, robot, duty, p, layout, segs, patches, floor_
             robot[DIVERGED, i] = 1.0
     robot[ESLIP, i] += heat
     body[0, i, 0], body[0, i, 1], body[0, i, 2] = x, y, th
+    keep_heading_trig(robot, i, th, c, s)
     body[1, i, 0], body[1, i, 1], body[1, i, 2] = vx, vy, om
 
 

@@ -20,20 +20,20 @@ from sim.contact import contact_forces
 from sim.substep import (
     ANGLE, AX, AY, COLUMNS, CURRENT, DIVERGED, ESLIP, FX, FY, HALFL, HALFW, INCONTACT, INERTIA,
     LOAD, MASS, MODEL, MU, RB, SLIP, SPEED, TRANSFER, V0, VB, WHEEL_ROWS,
-    body_step, broad_phase, contact_count, floor_mu, runaway, second_moments, shifted_load,
-    wheel_step,
+    body_step, broad_phase, contact_count, floor_mu, heading_trig, keep_heading_trig, runaway,
+    second_moments, shifted_load, wheel_step,
 )
 
 #: robots per block of the block driver (their work rows stay in cache through a call)
 BLOCK = 64
 #: most wheels of any chassis (the block scratch has rows for this many)
 MAX_WHEELS = 6
-# Block scratch (ROWS, BLOCK), allocated per block and call: the parameter rows (the same row
-# numbers as in the parameter block), the robot rows, the slot the wheel stage works on, and
-# each wheel's rows (the 7 wheel rows, the floor's mu under it and its duty). The shape is a
-# compile-time constant, so every row sits at a fixed distance from every other and the
-# compiler can vectorise the stage loops without run-time overlap checks; the wheel stage
-# works on fixed rows, so each wheel's rows are copied into the slot and back.
+# Block scratch, allocated per block and call: ``wk`` (ROWS, BLOCK) holds the parameter rows
+# (the same row numbers as in the parameter block) and the robot rows; ``ws`` (MAX_WHEELS,
+# _WWHEEL, BLOCK) holds each wheel's rows (the 7 wheel rows, the floor's mu under it and its
+# duty). The shapes are compile-time constants, so every row sits at a fixed distance from
+# every other, and ``ws[j]`` (one wheel) keeps a constant shape: the compiler vectorises the
+# stage loops over the robots with at most one run-time overlap check.
 _P = len(COLUMNS) + MAX_WHEELS
 (
     _WX, _WY, _WTH, _WC, _WS, _WVX, _WVY, _WOM, _WFX, _WFY, _WMZ, _WVB, _WWALL, _WPATCH, _WHEAT,
@@ -41,9 +41,7 @@ _P = len(COLUMNS) + MAX_WHEELS
 ) = range(_P, _P + 18)
 _WMU, _WDUTY = len(WHEEL_ROWS), len(WHEEL_ROWS) + 1
 _WWHEEL = len(WHEEL_ROWS) + 2
-_SLOT = _P + 18
-_WROBOT = _SLOT + _WWHEEL
-ROWS = _WROBOT + _WWHEEL * MAX_WHEELS
+ROWS = _P + 18
 
 
 
@@ -51,30 +49,22 @@ _INLINE = dict(cache=True, error_model="numpy", forceinline=True)
 
 
 @njit(**_INLINE)
-def _copy_rows(wk, src, dst, rows):
-    for r in range(rows):
-        for k in range(BLOCK):
-            wk[dst + r, k] = wk[src + r, k]
-
-
-@njit(**_INLINE)
-def _wheel_stage(wk, xj, yj, gdx, gdy, gsc, h, magic):
+def _wheel_stage(wk, wv, xj, yj, gdx, gdy, gsc, h, magic):
     """The wheel in the slot, every lane of the block, one sub-step (``magic``: some robot
     uses the magic formula, else the model is coulomb for all)."""
-    q = _SLOT
     for k in range(BLOCK):
         model = int(wk[MODEL, k]) if magic else 0
-        u = min(max(wk[q + _WDUTY, k], -1.0), 1.0)
+        u = min(max(wv[_WDUTY, k], -1.0), 1.0)
         wsp, amps, slip, f_x, f_y, dq = wheel_step(
-            u, wk[_WVB, k], wk[q + SPEED, k], wk[q + _WMU, k], wk[q + LOAD, k],
+            u, wk[_WVB, k], wv[SPEED, k], wv[_WMU, k], wv[LOAD, k],
             wk[_WVX, k], wk[_WVY, k], wk[_WOM, k], wk, k, xj, yj, gdx, gdy, gsc, h, model,
         )
-        wk[q + SPEED, k] = wsp
-        wk[q + ANGLE, k] += h * wsp
-        wk[q + CURRENT, k] = amps
-        wk[q + SLIP, k] = slip
-        wk[q + FX, k] = f_x
-        wk[q + FY, k] = f_y
+        wv[SPEED, k] = wsp
+        wv[ANGLE, k] += h * wsp
+        wv[CURRENT, k] = amps
+        wv[SLIP, k] = slip
+        wv[FX, k] = f_x
+        wv[FY, k] = f_y
         wk[_WHEAT, k] += dq
         wk[_WFX, k] += f_x
         wk[_WFY, k] += f_y
@@ -105,12 +95,12 @@ def _body_stage(wk, h):
 
 
 @njit(**_INLINE)
-def _runaway_stage(wk, w, h):
+def _runaway_stage(wk, ws, w, h):
     # marks every lane whose state ran away (sim.substep.runaway) or whose wheels did
     for k in range(BLOCK):
         bad = runaway(wk[_WX, k], wk[_WY, k], wk[_WVX, k], wk[_WOM, k], h)
         for j in range(w):
-            bad = bad or not math.isfinite(wk[_WROBOT + _WWHEEL * j + SPEED, k])
+            bad = bad | (not math.isfinite(ws[j, SPEED, k]))
         wk[_WBAD, k] = max(wk[_WBAD, k], 1.0 if bad else 0.0)
 
 
@@ -118,6 +108,7 @@ def _runaway_stage(wk, w, h):
 def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floor_scale, h, steps):
     """Stage-by-stage driver: robots ``a`` to ``b - 1`` (at most BLOCK) through every sub-step."""
     wk = np.empty((ROWS, BLOCK))
+    ws = np.empty((MAX_WHEELS, _WWHEEL, BLOCK))  # each wheel's rows
     m = b - a
     w = layout.shape[0]
     nload = len(COLUMNS)
@@ -138,8 +129,7 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
         for r in range(3):
             wk[_WX + r, k] = body[0, i, r]
             wk[_WVX + r, k] = body[1, i, r]
-        wk[_WC, k] = math.cos(body[0, i, 2])
-        wk[_WS, k] = math.sin(body[0, i, 2])
+        wk[_WC, k], wk[_WS, k] = heading_trig(robot, i, body[0, i, 2])
         wk[_WHEAT, k] = 0.0
         wk[_WBAD, k] = 0.0
         wk[_WAX, k] = robot[AX, i]
@@ -148,13 +138,12 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
         wk[_WPATCH, k] = 0.0
         any_wall = any_wall or robot[INCONTACT, i] > 0.0
     for j in range(w):
-        q = _WROBOT + _WWHEEL * j
         for r in range(len(WHEEL_ROWS)):
             for k in range(m):
-                wk[q + r, k] = wheel[r, a + k, j]
+                ws[j, r, k] = wheel[r, a + k, j]
         for k in range(m):
-            wk[q + _WDUTY, k] = duty[a + k, j // per_duty]
-            wk[q + _WMU, k] = wk[MU, k] * floor_scale
+            ws[j, _WDUTY, k] = duty[a + k, j // per_duty]
+            ws[j, _WMU, k] = wk[MU, k] * floor_scale
     # broad phase
     if segs.shape[0] > 0 or patches.shape[0] > 0:
         for k in range(m):
@@ -167,14 +156,16 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
     for k in range(m, BLOCK):
         for r in range(ROWS):
             wk[r, k] = wk[r, 0]
+        for j in range(MAX_WHEELS):
+            for r in range(_WWHEEL):
+                ws[j, r, k] = ws[j, r, 0]
     for _ in range(steps):
         # battery (the current of the previous sub-step)
         for k in range(m):
             wk[_WVB, k] = 0.0
         for j in range(w):
-            q = _WROBOT + _WWHEEL * j + CURRENT
             for k in range(m):
-                wk[_WVB, k] += abs(wk[q, k])
+                wk[_WVB, k] += abs(ws[j, CURRENT, k])
         for k in range(m):
             wk[_WVB, k] = max(wk[V0, k] - wk[RB, k] * wk[_WVB, k], 0.0)
         # normal loads (the force row holds their sum for the moment)
@@ -182,11 +173,10 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
             for k in range(m):
                 wk[_WFX, k] = 0.0
             for j in range(w):
-                q = _WROBOT + _WWHEEL * j + LOAD
                 for k in range(m):
                     if wk[TRANSFER, k] > 0.5:
-                        wk[q, k] = shifted_load(wk, k, j, wk[_WAX, k], wk[_WAY, k], layout[j, 0] * kx, layout[j, 1] * ky)
-                        wk[_WFX, k] += wk[q, k]
+                        ws[j, LOAD, k] = shifted_load(wk, k, j, wk[_WAX, k], wk[_WAY, k], layout[j, 0] * kx, layout[j, 1] * ky)
+                        wk[_WFX, k] += ws[j, LOAD, k]
             for k in range(m):
                 if wk[TRANSFER, k] > 0.5:
                     static = 0.0
@@ -194,30 +184,28 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
                         static += wk[nload + j, k]
                     scale = static / wk[_WFX, k] if wk[_WFX, k] > 0.0 else 1.0
                     for j in range(w):
-                        wk[_WROBOT + _WWHEEL * j + LOAD, k] *= scale
+                        ws[j, LOAD, k] *= scale
         for k in range(m):
             wk[_WFX, k] = 0.0
             wk[_WFY, k] = 0.0
             wk[_WMZ, k] = 0.0
         # wheels: the floor's friction under each, then motor, traction and spin
         for j in range(w):
-            q = _WROBOT + _WWHEEL * j
             xj, yj = layout[j, 0], layout[j, 1]
             if any_patch:
                 for k in range(m):
                     if wk[_WPATCH, k] != 0.0:
-                        wk[q + _WMU, k] = floor_mu(
+                        ws[j, _WMU, k] = floor_mu(
                             wk[MU, k] * floor_scale, wk[_WX, k] + wk[_WC, k] * xj - wk[_WS, k] * yj,
                             wk[_WY, k] + wk[_WS, k] * xj + wk[_WC, k] * yj, patches,
                         )
-            _copy_rows(wk, q, _SLOT, _WWHEEL)
+            wv = ws[j]
             # the model as a constant in each call, so the coulomb loop has no branch the
             # compiler cannot turn into vector selects
             if any_magic:
-                _wheel_stage(wk, xj, yj, layout[j, 2], layout[j, 3], layout[j, 4], h, True)
+                _wheel_stage(wk, wv, xj, yj, layout[j, 2], layout[j, 3], layout[j, 4], h, True)
             else:
-                _wheel_stage(wk, xj, yj, layout[j, 2], layout[j, 3], layout[j, 4], h, False)
-            _copy_rows(wk, _SLOT, q, LOAD)  # load, mu and duty are not changed
+                _wheel_stage(wk, wv, xj, yj, layout[j, 2], layout[j, 3], layout[j, 4], h, False)
         # walls
         for k in range(m if any_wall else 0):
             depth = 0.0
@@ -231,7 +219,7 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
                 wk[_WMZ, k] += cmz
             contact_count(robot, a + k, depth, h)
         _body_stage(wk, h)
-        _runaway_stage(wk, w, h)
+        _runaway_stage(wk, ws, w, h)
     # scatter back
     for k in range(m):
         i = a + k
@@ -244,7 +232,8 @@ def advance_block(a, b, body, wheel, robot, duty, p, layout, segs, patches, floo
         for r in range(3):
             body[0, i, r] = wk[_WX + r, k]
             body[1, i, r] = wk[_WVX + r, k]
+        keep_heading_trig(robot, i, wk[_WTH, k], wk[_WC, k], wk[_WS, k])
     for j in range(w):
         for r in range(len(WHEEL_ROWS)):
             for k in range(m):
-                wheel[r, a + k, j] = wk[_WROBOT + _WWHEEL * j + r, k]
+                wheel[r, a + k, j] = ws[j, r, k]

@@ -43,9 +43,9 @@ SPEED, ANGLE, CURRENT, SLIP, FX, FY, LOAD = range(7)
 #: rows of the (8, N) robot state
 ROBOT_ROWS = (
     "battery_voltage", "peak_penetration", "slip_energy", "in_contact", "contacts", "diverged",
-    "accel_x", "accel_y",
+    "accel_x", "accel_y", "heading_seen", "cos_heading", "sin_heading",
 )
-VB, PEAK, ESLIP, INCONTACT, CONTACTS, DIVERGED, AX, AY = range(8)
+VB, PEAK, ESLIP, INCONTACT, CONTACTS, DIVERGED, AX, AY, HSEEN, HCOS, HSIN = range(11)
 #: clearance time that ends a contact [s]
 CONTACT_CLEAR = 0.05
 #: how far a robot may travel in one call beyond twice its speed times the call's length [m]
@@ -136,8 +136,9 @@ def body_step(x, y, th, c, s, vx, vy, om, ax, ay, alpha, h):
 @njit(**_KW)
 def runaway(x, y, vx, om, h):
     """A non-finite state, faster than 1 km/s, or a turn beyond SERIES_MAX in one sub-step."""
-    ok = math.isfinite(x) and math.isfinite(y) and math.isfinite(om)
-    return not (ok and abs(vx) <= 1e3 and abs(om * h) <= SERIES_MAX)
+    # & rather than "and": no branches, so loops over robots vectorise through it
+    ok = math.isfinite(x) & math.isfinite(y) & math.isfinite(om) & (abs(vx) <= 1e3) & (abs(om * h) <= SERIES_MAX)
+    return not ok
 
 
 @njit(**_KW)
@@ -226,3 +227,21 @@ def contact_count(robot, i, depth, h):
         robot[PEAK, i] = max(robot[PEAK, i], depth)
     elif robot[INCONTACT, i] > 0.0:
         robot[INCONTACT, i] = max(robot[INCONTACT, i] - h / CONTACT_CLEAR, 0.0)
+
+
+@njit(**_KW)
+def heading_trig(robot, i, th):
+    """Cosine and sine of robot ``i``'s heading ``th``: those carried from the end of its last
+    step when the heading is still the one it ended with (two fewer trigonometric calls per
+    robot and call), else computed."""
+    if th == robot[HSEEN, i]:
+        return robot[HCOS, i], robot[HSIN, i]
+    return math.cos(th), math.sin(th)
+
+
+@njit(**_KW)
+def keep_heading_trig(robot, i, th, c, s):
+    """Carry the heading's cosine and sine to the next step (see heading_trig)."""
+    robot[HSEEN, i] = th
+    robot[HCOS, i] = c
+    robot[HSIN, i] = s

@@ -199,6 +199,8 @@ class World:
         self._wheel = np.zeros((len(WHEEL_ROWS), n, w))
         self._robot = np.zeros((len(ROBOT_ROWS), n))
         self._robot[0] = self.params[COLUMNS.index("battery_voltage")]
+        # no heading seen yet: the first step computes its cosine and sine
+        self._robot[ROBOT_ROWS.index("heading_seen")] = np.nan
         self._wheel[WHEEL_ROWS.index("load")] = self.params[len(COLUMNS):].T
         self._threads = ThreadChoice() if n >= self.PARALLEL_MIN else None
         # (N, W), or (N, 2) [left, right] for skid and differential
