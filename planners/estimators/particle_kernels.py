@@ -130,7 +130,6 @@ def particle_tick(
     resample_below : float — resample when the effective sample size is below this
     estimate : ndarray (N, 3) — written: weighted mean (circular mean of heading)
     """
-    m = p.shape[1]
     n_beams = ranges.shape[1]
     has_fix = fix_valid.shape[0] > 0
     for i in range(p.shape[0]):
