@@ -148,22 +148,30 @@ def pod_twist_maps(
     return gain, couple, bool(own_heading)
 
 
+@njit(cache=True, inline="always")
+def count_increment(counts, prev, gain, i):
+    """Body displacement ``gain @ (counts - prev)`` of robot ``i`` over one tick (the counts
+    become the previous ones): dx, dy [m], dtheta [rad], body frame."""
+    dx = 0.0
+    dy = 0.0
+    dth = 0.0
+    for j in range(counts.shape[1]):
+        d = counts[i, j] - prev[i, j]
+        prev[i, j] = counts[i, j]
+        dx += gain[0, j] * d
+        dy += gain[1, j] * d
+        dth += gain[2, j] * d
+    return dx, dy, dth
+
+
 @njit(cache=True)
 def _odometry_kernel(
     pose, counts, prev, gain, couple, own_heading, use_imu, gyro, valid, interval,
     imu_heading, since, last_rate, dt, step, positions,
 ):
-    n, k = counts.shape
+    n = counts.shape[0]
     for i in range(n):
-        dx = 0.0
-        dy = 0.0
-        dth = 0.0
-        for j in range(k):
-            d = counts[i, j] - prev[i, j]
-            prev[i, j] = counts[i, j]
-            dx += gain[0, j] * d
-            dy += gain[1, j] * d
-            dth += gain[2, j] * d
+        dx, dy, dth = count_increment(counts, prev, gain, i)
         if use_imu:
             if valid[i]:
                 imu_heading[i] += gyro[i] * interval[i]

@@ -17,11 +17,11 @@ from numba import njit
 
 from planners.control import WheelController, feedforward_from_motor
 from planners.estimators import ESTIMATORS
-from planners.odometry import Odometry
+from planners.odometry import count_increment
 from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
-from planners.se2 import wrap_one
+from planners.se2 import compose_one, exp_one, wrap_one
 from planners.trackers import TRACKERS
 from sim.scenario import Scenario, robot_value
 from sim.scoring import ScoreKeeper
@@ -70,18 +70,24 @@ def _judge_kernel(active, diverged, contacts, pose, vel, limits, finish, at_goal
 
 
 @njit(cache=True)
-def _encoder_speed_kernel(counts, prev, count_to_speed, forward, speed, twist):
-    """Wheel speeds (counts - previous) * 2 pi / (cpr dt) and their body twist (row by row, as
-    planners.kinematics); the counts become the previous ones."""
+def _encoder_kernel(counts, prev, count_to_speed, forward, odo_gain, odo_pose, speed, twist):
+    """From one tick of encoder counts: wheel speeds (counts - previous) * 2 pi / (cpr dt), their
+    body twist (row by row, as planners.kinematics), and the scorecard's dead reckoning with
+    the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"); the
+    counts become the previous ones."""
     for i in range(counts.shape[0]):
         for j in range(counts.shape[1]):
             speed[i, j] = (counts[i, j] - prev[i, j]) * count_to_speed
-            prev[i, j] = counts[i, j]
         for a in range(3):
             acc = 0.0
             for j in range(counts.shape[1]):
                 acc += speed[i, j] * forward[a, j]
             twist[i, a] = acc
+        dx, dy, dth = count_increment(counts, prev, odo_gain, i)
+        ex, ey, eh = exp_one(dx, dy, dth)
+        odo_pose[i, 0], odo_pose[i, 1], odo_pose[i, 2] = compose_one(
+            odo_pose[i, 0], odo_pose[i, 1], odo_pose[i, 2], ex, ey, eh
+        )
 
 
 #: stream numbers inside one run's SeedSequence
@@ -148,14 +154,12 @@ class Simulation:
         )
         self._needs_truth = getattr(self.estimator, "NEEDS_TRUTH", False)
         self.estimator.reset(pose0, n, rngs=[np.random.default_rng(s[_ESTIMATOR]) for s in streams])
-        self.odometry = None
+        # the scorecard's encoder dead reckoning, with the geometry the odometry assumes
+        self.odometry_pose = pose0.copy() if sc.sensors.encoders is not None else None
         if sc.sensors.encoders is not None:
             enc = sc.sensors.encoders
-            self.odometry = Odometry(
-                source="encoders", counts_per_rev=enc.counts_per_rev,
-                forward=assumed_forward_matrix(self.geom, radius_scale=enc.radius_scale, track_scale=enc.track_scale),
-            )
-            self.odometry.reset(pose0)
+            forward = assumed_forward_matrix(self.geom, radius_scale=enc.radius_scale, track_scale=enc.track_scale)
+            self._odo_gain = np.ascontiguousarray(forward * (2.0 * math.pi / enc.counts_per_rev))
         self.tracker = TRACKERS.get(sc.tracker.kind)(chassis=robot.chassis, **sc.tracker.params)
         self.tracker.reset(self.plan, n)
         m = robot.motor
@@ -227,7 +231,10 @@ class Simulation:
             self._prev_counts = counts.copy()
         speed = np.empty(counts.shape)
         twist = np.empty((counts.shape[0], 3))
-        _encoder_speed_kernel(counts, self._prev_counts, self._count_to_speed, self._forward, speed, twist)
+        _encoder_kernel(
+            counts, self._prev_counts, self._count_to_speed, self._forward, self._odo_gain,
+            self.odometry_pose, speed, twist,
+        )
         return speed, twist
 
     def step(self) -> bool:
@@ -244,8 +251,6 @@ class Simulation:
         measured, moving = self._measured_motion(readings)
         self.estimate = self.estimator.update(t, readings)
         self.covariance = getattr(self.estimator, "covariance", None)
-        if self.odometry is not None:
-            self.odometry.update(readings, copy=False)
         cmd = self.tracker.command(t, self.estimate, moving)
         self.command = cmd
         if cmd.duty is not None:
@@ -284,8 +289,8 @@ class Simulation:
         self.n_active -= 1
         self.final_estimate[i] = self.estimate[i]
         self.final_true[i] = self.world.pose[i]
-        if self.odometry is not None:
-            self.final_odometry[i] = self.odometry.pose[i]
+        if self.odometry_pose is not None:
+            self.final_odometry[i] = self.odometry_pose[i]
 
     def _judge(self, t: float, cmd) -> None:
         w = self.world
@@ -320,7 +325,7 @@ class Simulation:
     def results(self) -> list[RunResult]:
         """Scorecards of every run (call after the runs have ended)."""
         w = self.world
-        odo = self.final_odometry if self.odometry is not None else None
+        odo = self.final_odometry if self.odometry_pose is not None else None
         cards = self.score.scorecards(
             status=self.status, status_time=self.status_time, cause=self.cause,
             final_true=self.final_true, final_estimate=self.final_estimate, collisions=w.contact_count,
