@@ -35,14 +35,18 @@ _STATUS = ("running", "diverged", "collided", "completed", "timeout")
 
 
 @njit(cache=True)
-def _judge_kernel(active, diverged, contacts, pose, vel, limits, finish, at_goal, late, codes):
+def _judge_kernel(active, status, body, limits, finish, at_goal, late, codes):
     """Which active runs end this tick and why (``codes``, see ``_STATUS``); returns the count.
 
     A run ends when its physics diverged, when it touched a wall (with collision "stop"),
     once ``finish`` (plan or script over) and, when ``at_goal``, it is at the end pose within
     the tolerances and settled; else when ``late`` (the timeout is reached). ``limits`` holds
-    the end pose (3), the position, heading and speed tolerances and 1 for collision "stop".
+    the end pose (3), the position, heading and speed tolerances and 1 for collision "stop";
+    ``status`` the World's (2, N) contact counts and diverged flags, ``body`` its (2, N, 3) pose
+    and velocity.
     """
+    contacts, diverged = status[0], status[1]
+    pose, vel = body[0], body[1]
     goal = limits[:3]
     goal_tol, heading_tol, settle_speed = limits[3], limits[4], limits[5]
     collision_stop = limits[6] != 0.0
@@ -195,7 +199,8 @@ class Simulation:
         self.active = np.ones(n, dtype=bool)
         self.n_active = n
         self._codes = np.zeros(n, dtype=np.int64)
-        self._status_rows = self.world.status_rows()
+        self._status = self.world.status_rows()
+        self._body = self.world.body
         self._inverse = np.ascontiguousarray(self.geom.inverse_matrix)
         self._forward = np.ascontiguousarray(self.geom.forward_matrix)
         r = sc.run
@@ -300,9 +305,8 @@ class Simulation:
         else:
             finish = t >= self.plan_duration
         codes = self._codes
-        diverged, contacts = self._status_rows
         ended = _judge_kernel(
-            self.active, diverged, contacts, w.pose, w.velocity, self._limits, finish, not script,
+            self.active, self._status, self._body, self._limits, finish, not script,
             t + self.dt > self.timeout + 1e-12, codes,
         )
         if not ended:

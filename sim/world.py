@@ -14,6 +14,7 @@ from planners.kinematics import ChassisGeometry
 from sim.config_robot import Robot
 from sim.field import Field
 from sim.motors import motor_constants
+from sim.substep import CONTACTS, DIVERGED
 from sim.thread_choice import ThreadChoice
 from sim.physics import BLOCK, COLUMNS, G0, MAX_WHEELS, ROBOT_ROWS, WHEEL_ROWS, step_kernel, step_kernel_parallel
 from sim.contact import DAMPING_RATIO, STIFFNESS
@@ -240,10 +241,15 @@ class World:
     def _row(self, name: str) -> np.ndarray:
         return self._robot[ROBOT_ROWS.index(name)]
 
-    def status_rows(self) -> tuple[np.ndarray, np.ndarray]:
-        """Live views (N,) of the diverged flag (non-zero once diverged) and the contact count
-        (as floats), for per-tick checks without copies; do not write to them."""
-        return self._row("diverged"), self._row("contacts")
+    def status_rows(self) -> np.ndarray:
+        """Live view (2, N) of the contact counts (as floats) and the diverged flags (non-zero
+        once diverged), for per-tick checks without copies; do not write to it."""
+        return self._robot[CONTACTS : DIVERGED + 1]  # adjacent rows of sim.substep.ROBOT_ROWS
+
+    @property
+    def body(self) -> np.ndarray:
+        """Live view (2, N, 3) of the pose (field frame) and body velocity; do not write to it."""
+        return self._body
 
     @property
     def wheel_force(self) -> np.ndarray:
