@@ -74,7 +74,7 @@ def _judge_kernel(active, status, body, limits, finish, at_goal, late, codes):
 
 
 @njit(cache=True)
-def _encoder_kernel(counts, prev, count_to_speed, forward, odo_gain, odo_pose, speed, twist):
+def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo_pose, speed, twist):
     """From one tick of encoder counts: wheel speeds (counts - previous) * 2 pi / (cpr dt), their
     body twist (row by row, as planners.kinematics), and the scorecard's dead reckoning with
     the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"); the
@@ -236,7 +236,7 @@ class Simulation:
             self._prev_counts = counts.copy()
         speed = np.empty(counts.shape)
         twist = np.empty((counts.shape[0], 3))
-        _encoder_kernel(
+        _encoder_motion_kernel(
             counts, self._prev_counts, self._count_to_speed, self._forward, self._odo_gain,
             self.odometry_pose, speed, twist,
         )

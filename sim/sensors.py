@@ -19,99 +19,19 @@ import math
 from collections.abc import Mapping, Sequence
 
 import numpy as np
-from numba import njit
 
 from planners import se2
 from planners.odometry import pod_matrix
 from planners.arrays import as_rows
-from planners.se2 import compose_one, log_one, wrap_one
 from planners.readings import Readings
 from sim.config_sensors import SensorSuite
 from sim.field import Field, ray_cast_kernel
+from sim.sensor_kernels import (
+    encoder_kernel, imu_kernel, mount_kernel, pod_kernel, range_kernel, twist_kernel,
+)
 from sim.sensors_noise import NoiseBlock, check_generators
 
 _TWO_PI = 2.0 * np.pi
-
-
-@njit(cache=True)
-def _twist_kernel(prev, pose, out):
-    # log(between(prev, pose)): the difference rotated by -heading (compose of a pure
-    # rotation), then the constant twist of the arc joining them
-    for i in range(pose.shape[0]):
-        x, y, h = compose_one(
-            0.0, 0.0, -prev[i, 2], pose[i, 0] - prev[i, 0], pose[i, 1] - prev[i, 1], pose[i, 2]
-        )
-        out[i, 0], out[i, 1], out[i, 2] = log_one(x, y, h)
-
-
-@njit(cache=True)
-def _encoder_kernel(wheel_angle, counts_per_rad, noise, quantise, z, z0, out):
-    for i in range(wheel_angle.shape[0]):
-        for j in range(wheel_angle.shape[1]):
-            c = wheel_angle[i, j] * counts_per_rad
-            if noise > 0.0:
-                c += noise * z[i, z0 + j]
-            out[i, j] = np.floor(c) if quantise else c
-
-
-@njit(cache=True)
-def _pod_kernel(twist, row, counts_per_m, scale, noise, skip, quantise, z, z0, u, u0, acc, out):
-    # pod travel of one tick: s = a . xi,  a = [cos d, sin d, x sin d - y cos d]
-    for i in range(twist.shape[0]):
-        for j in range(row.shape[0]):
-            s = row[j, 0] * twist[i, 0] + row[j, 1] * twist[i, 1] + row[j, 2] * twist[i, 2]
-            lost = skip[j] > 0.0 and u[i, u0 + j] < skip[j]
-            if not lost:
-                acc[i, j] += s * (1.0 + scale[i, j]) * counts_per_m[j]
-            c = acc[i, j]
-            if noise[j] > 0.0:
-                c += noise[j] * z[i, z0 + j]
-            out[i, j] = np.floor(c) if quantise[j] else c
-
-
-@njit(cache=True)
-def _imu_kernel(prev, pose, due, interval, density, walk, bias, scale, z, z0, acc, out):
-    # the turn of the tick is the heading change wrap(h - h_prev), as in log(between(prev,
-    # pose)); prev moves on to pose
-    for i in range(pose.shape[0]):
-        acc[i] += wrap_one(pose[i, 2] - prev[i, 2])
-        prev[i, 0], prev[i, 1], prev[i, 2] = pose[i, 0], pose[i, 1], pose[i, 2]
-        if not due:
-            out[i] = np.nan
-            continue
-        # bias random walk: b += K sqrt(T) w;  white rate noise: N / sqrt(T) w
-        # (IEEE Std 952-1997: angle random walk N, rate random walk K)
-        if walk > 0.0:
-            bias[i] += walk * np.sqrt(interval) * z[i, z0 + 1]
-        r = (1.0 + scale[i]) * acc[i] / interval + bias[i]
-        if density > 0.0:
-            r += density / np.sqrt(interval) * z[i, z0]
-        out[i] = r
-        acc[i] = 0.0
-
-
-@njit(cache=True)
-def _mount_kernel(pose, mounts, origin, heading):
-    # ray start and direction of every (robot, sensor): pose * mount, field frame
-    r = mounts.shape[0]
-    for i in range(pose.shape[0]):
-        for j in range(r):
-            x, y, h = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], mounts[j, 0], mounts[j, 1], mounts[j, 2])
-            origin[i * r + j, 0] = x
-            origin[i * r + j, 1] = y
-            heading[i * r + j] = h
-
-
-@njit(cache=True)
-def _range_kernel(d, sigma, z, due, out):
-    for i in range(d.shape[0]):
-        for j in range(d.shape[1]):
-            if not due[j]:
-                continue
-            v = d[i, j]
-            if z.shape[1] and np.isfinite(v):
-                v = max(v + sigma[j] * z[i, j], 0.0)
-            out[i, j] = v
 
 
 class Sensors:
@@ -277,7 +197,7 @@ class Sensors:
         out = Readings(t=float(t))
         if c.pods:
             twist = np.empty((n, 3))
-            _twist_kernel(self._prev, pose, twist)
+            twist_kernel(self._prev, pose, twist)
         if c.encoders is not None:
             if np.shape(wheel_angle) != (n, self.wheel_count):
                 raise ValueError(
@@ -287,12 +207,12 @@ class Sensors:
             e = c.encoders
             out.encoder_counts = np.empty((n, self.wheel_count))
             z, _ = self._take("enc")
-            _encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z, 0,
+            encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z, 0,
                             out.encoder_counts)
         if c.pods:
             out.pod_counts = np.empty((n, len(c.pods)))
             z, u = self._take("pod")
-            _pod_kernel(twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
+            pod_kernel(twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
                         self._pod_skip, self._pod_quant, z, 0, u, 0, self._pod_acc, out.pod_counts)
         if c.imu is not None:
             self._read_imu(k, pose, out)  # moves the previous pose on
@@ -310,7 +230,7 @@ class Sensors:
         interval = (k - self._imu_last) * self.dt if due else 0.0
         z = self._take("imu")[0] if due else self._no_draws
         out.gyro_rate = np.empty(self.n)
-        _imu_kernel(self._prev, pose, due, max(interval, 1e-300), imu.rate_noise,
+        imu_kernel(self._prev, pose, due, max(interval, 1e-300), imu.rate_noise,
                     imu.bias_walk, self._bias, self._imu_scale, z, 0, self._imu_acc, out.gyro_rate)
         if due:
             self._imu_last = k
@@ -393,14 +313,14 @@ class Sensors:
             return
         d = self.true_ranges(pose)
         z, _ = self._take("range")
-        _range_kernel(d, self._range_sigma, z, due, out.ranges)
+        range_kernel(d, self._range_sigma, z, due, out.ranges)
 
     def true_ranges(self, pose: np.ndarray) -> np.ndarray:
         """Noise-free range of every sensor from each pose, shape (N, R) [m] (inf beyond max)."""
         n, r = pose.shape[0], self.range_mounts.shape[0]
         origin = np.empty((n * r, 2))
         heading = np.empty(n * r)
-        _mount_kernel(np.ascontiguousarray(pose, dtype=np.float64), self.range_mounts, origin, heading)
+        mount_kernel(np.ascontiguousarray(pose, dtype=np.float64), self.range_mounts, origin, heading)
         d = np.empty(n * r)
         ray_cast_kernel(self.field.segments, origin, heading, np.inf, d)
         d = d.reshape(n, r)
