@@ -9,7 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-_F8 = np.dtype(np.float64)
+#: the float64 dtype, compared by identity (cheaper than ==)
+F8 = np.dtype(np.float64)
 
 
 def as_rows(value: np.ndarray, shape: tuple[int, ...]) -> np.ndarray:
@@ -23,6 +24,19 @@ def as_rows(value: np.ndarray, shape: tuple[int, ...]) -> np.ndarray:
     ValueError
         When ``value`` cannot be broadcast to ``shape``.
     """
-    if type(value) is np.ndarray and value.dtype is _F8 and value.shape == shape and value.flags.c_contiguous:
+    if type(value) is np.ndarray and value.dtype is F8 and value.shape == shape and value.flags.c_contiguous:
         return value
     return np.ascontiguousarray(np.broadcast_to(np.asarray(value, dtype=np.float64), shape))
+
+
+def as_batch(value: np.ndarray, width: int) -> np.ndarray:
+    """``value`` as a C-contiguous float64 array of shape (N, ``width``), N from the data.
+
+    Returns ``value`` itself when it already is one (no copy, as :func:`as_rows`).
+    """
+    if (
+        type(value) is np.ndarray and value.dtype is F8 and value.ndim == 2
+        and value.shape[1] == width and value.flags.c_contiguous
+    ):
+        return value
+    return np.ascontiguousarray(np.asarray(value, dtype=np.float64).reshape(-1, width))

@@ -20,6 +20,7 @@ from functools import cached_property
 import numpy as np
 from numba import njit
 
+from planners.arrays import as_batch
 from planners.errors import ScenarioError
 
 CHASSIS = ("mecanum", "skid", "differential")
@@ -99,13 +100,11 @@ class ChassisGeometry:
         -------
         ndarray, shape (N, W) — wheel speeds [rad/s]
         """
-        tw = twist if _is_batch(twist, 3) else np.asarray(twist, dtype=np.float64).reshape(-1, 3)
-        return _rows_times(tw, self._inverse_c)
+        return _rows_times(as_batch(twist, 3), self._inverse_c)
 
     def forward(self, wheel_speeds: np.ndarray) -> np.ndarray:
         """Body twist from wheel speeds, shape (N, W) -> (N, 3)."""
-        w = wheel_speeds if _is_batch(wheel_speeds, self.wheels) else np.asarray(wheel_speeds, dtype=np.float64).reshape(-1, self.wheels)
-        return _rows_times(w, self._forward_c)
+        return _rows_times(as_batch(wheel_speeds, self.wheels), self._forward_c)
 
     @cached_property
     def _inverse_c(self) -> np.ndarray:
@@ -130,22 +129,11 @@ class ChassisGeometry:
         )
 
 
-_F8 = np.dtype(np.float64)
-
-
-def _is_batch(value: np.ndarray, width: int) -> bool:
-    # already a C-contiguous float64 (N, width) array: no conversion needed
-    return (
-        type(value) is np.ndarray and value.dtype is _F8 and value.ndim == 2
-        and value.shape[1] == width and value.flags.c_contiguous
-    )
-
-
 def _rows_times(rows: np.ndarray, matrix: np.ndarray) -> np.ndarray:
     """``rows @ matrix.T`` computed row by row, so a robot's result never depends on the batch
     size (BLAS picks different summation orders for different shapes)."""
     out = np.empty((rows.shape[0], matrix.shape[0]))
-    _rows_times_kernel(np.ascontiguousarray(rows, dtype=np.float64), matrix, out)
+    _rows_times_kernel(rows, matrix, out)
     return out
 
 

@@ -17,7 +17,8 @@ from pathlib import Path
 import numpy as np
 
 from planners.readings import Readings
-from planners.robot_log import WHEEL_LABELS, write_log
+from planners.log_writer import write_log
+from planners.robot_log import WHEEL_LABELS
 from sim.runner import Simulation
 
 

@@ -298,7 +298,6 @@ class Simulation:
             self.final_odometry[i] = self.odometry_pose[i]
 
     def _judge(self, t: float, cmd) -> None:
-        w = self.world
         script = cmd.duty is not None
         if script:
             finish = self.script_end is not None and t >= self.script_end

@@ -9,6 +9,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from planners.arrays import F8
 from planners.errors import ScenarioError
 from planners.kinematics import ChassisGeometry
 from sim.config_robot import Robot
@@ -18,9 +19,6 @@ from sim.substep import CONTACTS, DIVERGED
 from sim.thread_choice import ThreadChoice
 from sim.physics import BLOCK, COLUMNS, G0, MAX_WHEELS, ROBOT_ROWS, WHEEL_ROWS, step_kernel, step_kernel_parallel
 from sim.contact import DAMPING_RATIO, STIFFNESS
-
-
-_F8 = np.dtype(np.float64)
 
 
 def _replace(robot: Robot, key: str, value: float) -> Robot:
@@ -288,7 +286,7 @@ class World:
         Duty beyond [-1, 1] is clipped.
         """
         d = duty
-        if type(d) is not np.ndarray or d.dtype is not _F8 or not d.flags.c_contiguous:
+        if type(d) is not np.ndarray or d.dtype is not F8 or not d.flags.c_contiguous:
             d = np.ascontiguousarray(np.atleast_2d(np.asarray(duty, dtype=np.float64)))
         if d.shape not in self._duty_shapes:
             self.geom.expand_duty(d)  # raises the one-line error for a wrong wheel count

@@ -142,7 +142,7 @@ def test_results_file_units_and_bad_input(tmp_path):
 
 
 def test_a_log_that_is_not_a_square_is_refused(tmp_path):
-    from planners.robot_log import write_log
+    from planners.log_writer import write_log
 
     t = np.linspace(0.0, 2.0, 50)
     pos = np.column_stack([t * 10.0, t * 10.0])  # straight ahead, no turn

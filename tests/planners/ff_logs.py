@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from planners.robot_log import write_log
+from planners.log_writer import write_log
 
 KS, KV, KA = 0.9, 0.28, 0.025  # [V], [V s/rad], [V s^2/rad]
 DT = 0.005

@@ -14,7 +14,8 @@ import pytest
 
 from planners.errors import LogError
 from planners.identify_geometry import fit_track_width
-from planners.robot_log import read_log, write_log
+from planners.log_writer import write_log
+from planners.robot_log import read_log
 from sim.identify_odometry import KINDS
 from sim.log_recorder import run_logged
 from sim.runner import Simulation

@@ -9,7 +9,8 @@ import pytest
 
 from planners.errors import LogError
 from planners.log_readings import log_readings
-from planners.robot_log import read_log, write_log
+from planners.log_writer import write_log
+from planners.robot_log import read_log
 
 GOOD = """# counts_per_rev = 1024
 # wheel_radius = 0.05

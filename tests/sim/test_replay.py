@@ -81,7 +81,7 @@ def test_unknown_estimator_suggests(tmp_path, capsys):
 def _drive(tmp_path, name, columns):
     """A differential cart's log (r = 5 cm, track 40 cm): left wheel phi = 4 t + 0.5 t^2, right
     phi = 5 t + 0.8 t^2 [rad] over 3 s at 100 Hz, with a gyro."""
-    from planners.robot_log import write_log
+    from planners.log_writer import write_log
 
     t = np.arange(301) * 0.01
     cols = {"yaw_rate": ("rad/s", np.full_like(t, 0.01))}
@@ -110,7 +110,7 @@ def test_command_replays_a_speed_only_log_through_the_ekf(tmp_path, capsys):
 
 
 def test_a_sensor_the_log_lacks_is_named_in_log_terms(tmp_path, capsys):
-    from planners.robot_log import write_log
+    from planners.log_writer import write_log
 
     t = np.arange(50) * 0.01
     path = write_log(tmp_path / "gyro.csv", t, {"yaw_rate": ("rad/s", np.zeros_like(t))},
