@@ -15,6 +15,8 @@ References: Lynch & Park, *Modern Robotics* (2017), §3.3 and §13.4; Sola, Dera
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from numba import njit
 
@@ -35,18 +37,45 @@ def wrap_one(angle: float) -> float:
     return a - np.pi
 
 
-@njit(cache=True, error_model="numpy")
+# Taylor coefficients (-1)^k / (2k+1)! of sin(t)/t and (-1)^k / (2k+2)! of (1 - cos t)/t^2
+_SIN_C = tuple((-1.0) ** k / math.factorial(2 * k + 1) for k in range(8))
+_COS_C = tuple((-1.0) ** k / math.factorial(2 * k + 2) for k in range(8))
+
+
+@njit(cache=True, inline="always")
 def arc_series(theta: float) -> tuple[float, float]:
     """``A = sin(t) / t`` and ``B = (1 - cos(t)) / t`` by their Taylor series (``|t| <= SERIES_MAX``).
 
-    Branch-free, so compiled loops over a batch vectorise through it.
+    Horner form in ``t^2`` with the coefficients as constants: multiplies and adds only (a
+    division costs several times a multiply and does not pipeline), and branch-free, so
+    compiled loops over a batch vectorise through it.
     """
+    c0, c1, c2, c3, c4, c5, c6, c7 = _SIN_C
+    d0, d1, d2, d3, d4, d5, d6, d7 = _COS_C
     t2 = theta * theta
-    a = 1.0 - t2 / 6.0 * (1.0 - t2 / 20.0 * (1.0 - t2 / 42.0 * (1.0 - t2 / 72.0 * (
-        1.0 - t2 / 110.0 * (1.0 - t2 / 156.0 * (1.0 - t2 / 210.0))))))
-    b = theta / 2.0 * (1.0 - t2 / 12.0 * (1.0 - t2 / 30.0 * (1.0 - t2 / 56.0 * (1.0 - t2 / 90.0 * (
-        1.0 - t2 / 132.0 * (1.0 - t2 / 182.0 * (1.0 - t2 / 240.0)))))))
+    a = c0 + t2 * (c1 + t2 * (c2 + t2 * (c3 + t2 * (c4 + t2 * (c5 + t2 * (c6 + t2 * c7))))))
+    b = theta * (d0 + t2 * (d1 + t2 * (d2 + t2 * (d3 + t2 * (d4 + t2 * (d5 + t2 * (d6 + t2 * d7)))))))
     return a, b
+
+
+@njit(cache=True, inline="always")
+def turn_trig(c: float, s: float, dtheta: float, heading: float) -> tuple[float, float]:
+    """cos and sin of ``heading``, given those of ``heading - dtheta`` and the turn ``dtheta``.
+
+    A small turn rotates ``(c, s)`` by ``cos dtheta = 1 - dtheta B``, ``sin dtheta = dtheta A``
+    from :func:`arc_series` (no trigonometric call) and renormalises, so rounding cannot
+    build up over many turns; a turn beyond :data:`SERIES_MAX` takes cos and sin of
+    ``heading`` afresh.
+    """
+    if abs(dtheta) > SERIES_MAX:
+        return np.cos(heading), np.sin(heading)
+    a, b = arc_series(dtheta)
+    cd = 1.0 - dtheta * b
+    sd = dtheta * a
+    c2 = c * cd - s * sd
+    s2 = s * cd + c * sd
+    norm = 1.0 / np.sqrt(c2 * c2 + s2 * s2)
+    return c2 * norm, s2 * norm
 
 
 @njit(cache=True, inline="always")

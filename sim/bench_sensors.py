@@ -18,7 +18,7 @@ from planners.se2 import compose, exp
 from sim.config_sensors import Encoders, Fixes, Imu, Pod, RangeSensor, SensorSuite
 from sim.field import Field, Landmark
 from sim.sensors import Sensors
-from sim.sensors_noise import BLOCK
+BLOCK = 128  # ticks timed per size (after as many warm-up ticks)
 
 _DT = 0.005
 _W_R, _A = 0.048, 0.33  # mecanum wheel radius, (wheelbase + track) / 2

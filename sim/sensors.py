@@ -27,9 +27,9 @@ from planners.readings import Readings
 from sim.config_sensors import SensorSuite
 from sim.field import Field, ray_cast_kernel
 from sim.sensor_kernels import (
-    encoder_kernel, imu_kernel, mount_kernel, pod_kernel, range_kernel, twist_kernel,
+    encoder_kernel, fix_kernel, imu_kernel, landmark_kernel, motion_kernel, pod_kernel, range_kernel,
 )
-from sim.sensors_noise import NoiseBlock, check_generators
+from sim.sensors_noise import SensorDraws, check_generators
 
 _TWO_PI = 2.0 * np.pi
 
@@ -89,12 +89,17 @@ class Sensors:
             self._pod_quant = np.array([p.quantise for p in c.pods])
         if c.range:
             self.range_mounts = _frozen([[*r.at, r.direction] for r in c.range])
+            d = self.range_mounts[:, 2]
+            self._range_rays = _frozen(np.column_stack([self.range_mounts, np.cos(d), np.sin(d)]))
             self.range_max = _frozen([r.max_range for r in c.range])
             self._range_sigma = _frozen([r.sigma for r in c.range])
         if c.fixes is not None:
             f = c.fixes
             self.fix_sigma = _frozen([f.sigma_xy, f.sigma_xy, f.sigma_heading])
             self._lag = int(round(f.latency / self.dt))
+            # the fix camera for the kernels: range, cos(fov / 2), axis cos and sin (body frame)
+            self._camera = (np.inf if f.range is None else f.range,
+                            np.cos(min(f.fov, 2.0 * np.pi) / 2.0), np.cos(f.direction), np.sin(f.direction))
         else:
             self._lag = 0
         self.reset([], np.zeros((0, 3)))
@@ -128,11 +133,19 @@ class Sensors:
         self.t0 = float(t0)
         self._k = -1
         rngs = check_generators(rngs)
-        self._noise = NoiseBlock(rngs, self._draws)
+        self._noise = SensorDraws(rngs, self._draws)
         self._prev = pose0.copy()
+        self._trig = np.column_stack([np.cos(pose0[:, 2]), np.sin(pose0[:, 2])])
+        self._twist = np.zeros((n, 3))
+        self._motion = bool(c.pods or c.imu is not None or c.range)
         self._constants: dict = {}
-        self._no_draws = np.empty((n, 0))
+        self._no_draws = np.empty((0, n))
         self._hist = np.repeat(pose0[None], self._lag + 1, axis=0)
+        # the readings of a tick without a fix: shared, read-only
+        self._no_fix = (_frozen(np.full((n, 3), np.nan)), _frozen(np.full(n, np.nan)),
+                        _frozen(np.zeros(n), bool))
+        self._no_ranges = _frozen(np.full((n, len(c.range)), np.nan))
+        self._range_due: dict[tuple, tuple[np.ndarray, np.ndarray]] = {}
         over = dict(per_robot or {})
         allowed = ("imu.bias", "imu.scale_error", "pods.scale_error")
         for key in over:
@@ -195,9 +208,8 @@ class Sensors:
         if c.fixes is not None:
             self._hist[k % (self._lag + 1)] = pose
         out = Readings(t=float(t))
-        if c.pods:
-            twist = np.empty((n, 3))
-            twist_kernel(self._prev, pose, twist)
+        if self._motion:  # the tick's arc; prev and its heading's cos/sin move on to pose
+            motion_kernel(self._prev, self._trig, pose, self._twist)
         if c.encoders is not None:
             if np.shape(wheel_angle) != (n, self.wheel_count):
                 raise ValueError(
@@ -207,31 +219,28 @@ class Sensors:
             e = c.encoders
             out.encoder_counts = np.empty((n, self.wheel_count))
             z, _ = self._take("enc")
-            encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z, 0,
-                            out.encoder_counts)
+            encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z, out.encoder_counts)
         if c.pods:
             out.pod_counts = np.empty((n, len(c.pods)))
             z, u = self._take("pod")
-            pod_kernel(twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
-                        self._pod_skip, self._pod_quant, z, 0, u, 0, self._pod_acc, out.pod_counts)
+            pod_kernel(self._twist, self._pod_row, self._pod_cpm, self._pod_scale, self._pod_noise,
+                        self._pod_skip, self._pod_quant, z, u, self._pod_acc, out.pod_counts)
         if c.imu is not None:
-            self._read_imu(k, pose, out)  # moves the previous pose on
-        elif c.pods:
-            self._prev[...] = pose
+            self._read_imu(k, out)
         if c.fixes is not None:
             self._read_fix(k, out)
         if c.range:
-            self._read_range(k, pose, out)
+            self._read_range(k, out)
         return out
 
-    def _read_imu(self, k: int, pose: np.ndarray, out: Readings) -> None:
+    def _read_imu(self, k: int, out: Readings) -> None:
         imu = self.config.imu
         due = k > 0 and self._due(k, imu.rate)
         interval = (k - self._imu_last) * self.dt if due else 0.0
         z = self._take("imu")[0] if due else self._no_draws
         out.gyro_rate = np.empty(self.n)
-        imu_kernel(self._prev, pose, due, max(interval, 1e-300), imu.rate_noise,
-                    imu.bias_walk, self._bias, self._imu_scale, z, 0, self._imu_acc, out.gyro_rate)
+        imu_kernel(self._twist, due, max(interval, 1e-300), imu.rate_noise,
+                    imu.bias_walk, self._bias, self._imu_scale, z, self._imu_acc, out.gyro_rate)
         if due:
             self._imu_last = k
         out.imu_valid = self._constant(due, np.bool_)
@@ -251,25 +260,17 @@ class Sensors:
     def _read_fix(self, k: int, out: Readings) -> None:
         f, n = self.config.fixes, self.n
         kc = k - self._lag
-        out.fix = np.full((n, 3), np.nan)
-        out.fix_time = np.full(n, np.nan)
         out.fix_sigma = self.fix_sigma
-        valid = np.zeros(n, dtype=np.bool_)
-        lm = self.field.landmark_xy
-        if kc >= 0 and lm.shape[0] and self._due(k, f.rate):
-            z, u = self._take("fix")
-            seen = self._pose_then(kc)
-            valid = self.landmark_visible(seen).any(axis=1)
-            if u.shape[1]:
-                valid &= u[:, 0] >= f.dropout
-            noisy = seen + self.fix_sigma * z if z.shape[1] else seen.copy()
-            noisy[:, 2] = se2.wrap(noisy[:, 2])
-            out.fix[valid] = noisy[valid]
-            out.fix_time[valid] = self.t0 + kc * self.dt
-        out.fix_valid = valid
-
-    def _pose_then(self, kc: int) -> np.ndarray:
-        return self._hist[kc % (self._lag + 1)].copy()
+        if not (kc >= 0 and self.field.landmark_xy.shape[0] and self._due(k, f.rate)):
+            out.fix, out.fix_time, out.fix_valid = self._no_fix
+            return
+        z, u = self._take("fix")
+        out.fix = np.empty((n, 3))
+        out.fix_time = np.empty(n)
+        out.fix_valid = np.empty(n, dtype=np.bool_)
+        fix_kernel(self.field.segments, self.field.landmark_xy, self._hist[kc % (self._lag + 1)],
+                   *self._camera, f.dropout, self.fix_sigma, z, u, self.t0 + kc * self.dt,
+                   out.fix, out.fix_time, out.fix_valid)
 
     def landmark_visible(self, pose: np.ndarray) -> np.ndarray:
         """Which landmarks the fix camera sees from each pose.
@@ -283,51 +284,43 @@ class Sensors:
         ndarray of bool, shape (N, L) — within range, inside the field of view and not
         hidden behind a wall or obstacle
         """
-        f = self.config.fixes
-        lm = self.field.landmark_xy
-        rel = lm[None, :, :] - pose[:, None, :2]
-        dist = np.hypot(rel[..., 0], rel[..., 1])
-        bearing = np.arctan2(rel[..., 1], rel[..., 0])
-        ok = np.ones(dist.shape, dtype=np.bool_)
-        if f.range is not None:
-            ok &= dist <= f.range
-        if f.fov < 2.0 * np.pi:
-            off = se2.wrap(bearing - pose[:, None, 2] - f.direction)
-            ok &= np.abs(off) <= f.fov / 2.0
-        origin = np.ascontiguousarray(np.repeat(pose[:, :2], lm.shape[0], axis=0))
-        hit = np.empty(origin.shape[0])
-        ray_cast_kernel(self.field.segments, origin, np.ascontiguousarray(bearing.reshape(-1)),
-                        np.inf, hit)
-        # a landmark on a wall is hit at its own distance; anything nearer hides it
-        ok &= hit.reshape(dist.shape) >= dist * (1.0 - 1e-9) - 1e-9
-        return ok
+        pose = as_rows(pose, (np.shape(pose)[0], 3))
+        out = np.empty((pose.shape[0], self.field.landmark_xy.shape[0]), dtype=np.bool_)
+        landmark_kernel(self.field.segments, self.field.landmark_xy, pose, *self._camera, out)
+        return out
 
-    def _read_range(self, k: int, pose: np.ndarray, out: Readings) -> None:
-        n, r = self.n, len(self.config.range)
-        due = np.array([self._due(k, s.rate) for s in self.config.range])
+    def _read_range(self, k: int, out: Readings) -> None:
         out.range_mounts = self.range_mounts
         out.range_max = self.range_max
-        out.ranges = np.full((n, r), np.nan)
-        out.range_valid = np.repeat(due[None], n, axis=0)
-        if not due.any():
+        due = tuple(self._due(k, s.rate) for s in self.config.range)
+        pattern = self._range_due.get(due)
+        if pattern is None:  # the same for every robot: shared read-only arrays
+            pattern = self._range_due[due] = (
+                _frozen(due, bool), _frozen(np.broadcast_to(due, (self.n, len(due))), bool)
+            )
+        out.range_valid = pattern[1]
+        if not any(due):
+            out.ranges = self._no_ranges
             return
-        d = self.true_ranges(pose)
         z, _ = self._take("range")
-        range_kernel(d, self._range_sigma, z, due, out.ranges)
+        out.ranges = np.empty((self.n, len(due)))
+        range_kernel(self.field.segments, self._prev, self._trig, self._range_rays, self.range_max,
+                     pattern[0], self._range_sigma, z, out.ranges)
 
     def true_ranges(self, pose: np.ndarray) -> np.ndarray:
         """Noise-free range of every sensor from each pose, shape (N, R) [m] (inf beyond max)."""
-        n, r = pose.shape[0], self.range_mounts.shape[0]
-        origin = np.empty((n * r, 2))
-        heading = np.empty(n * r)
-        mount_kernel(np.ascontiguousarray(pose, dtype=np.float64), self.range_mounts, origin, heading)
-        d = np.empty(n * r)
-        ray_cast_kernel(self.field.segments, origin, heading, np.inf, d)
-        d = d.reshape(n, r)
-        return np.where(d <= self.range_max[None, :], d, np.inf)
+        pose = as_rows(pose, (np.shape(pose)[0], 3))
+        trig = np.column_stack([np.cos(pose[:, 2]), np.sin(pose[:, 2])])
+        r = self.range_mounts.shape[0]
+        d = np.empty((pose.shape[0], r))
+        range_kernel(self.field.segments, pose, trig, self._range_rays, self.range_max,
+                     np.ones(r, dtype=np.bool_), self._range_sigma, self._no_draws, d)
+        return d
 
-def _frozen(values) -> np.ndarray:
-    # static sensor geometry shared by every Readings: read-only so no consumer can change it
-    a = np.array(values, dtype=np.float64)
+
+def _frozen(values, dtype=np.float64) -> np.ndarray:
+    # arrays shared by every Readings (static geometry, the readings of a tick without a
+    # sample): read-only so no consumer can change them
+    a = np.array(values, dtype=dtype)
     a.setflags(write=False)
     return a

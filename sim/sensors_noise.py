@@ -1,15 +1,12 @@
-"""Per-robot random draws for the sensors, in blocks.
+"""Per-robot random draws for the sensors, keyed by tick and sensor.
 
-Robot k draws every sensor random number from its own ``numpy.random.Generator``, so its
-readings are bit-identical whether it runs alone or in a batch of any size. Calling N
-generators at every sample would cost more than the draws themselves, so each sensor
-share a :class:`NoiseBlock`: each robot draws :data:`BLOCK` ticks' worth for every sensor
-at once (two generator calls per robot and refill), and the block is handed out one tick at
-a time.
-
-A block runs out every BLOCK control ticks, the same for every robot; the block size is a
-constant, never derived from N. So each robot consumes its stream in the same order alone or
-in any batch.
+Robot k draws every sensor random number from its own stream, so its readings are
+bit-identical whether it runs alone or in a batch of any size. The stream is the
+counter-based generator of :mod:`sim.keyed_draws`: at reset each robot takes one 64-bit
+key from its ``numpy.random.Generator``, and the draw for (tick, sensor, index) is word
+number ``tick * stride + offset[sensor] + index`` of that key. A sensor draws only on the
+ticks it samples, one compiled call for all robots; which robots share the batch, and which
+other sensors sampled, change nothing.
 """
 
 from __future__ import annotations
@@ -18,8 +15,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-#: samples drawn per refill (fixed: changing it changes every seeded result)
-BLOCK = 128
+from sim.keyed_draws import DENSITY, EDGES, fill_normals, fill_uniforms, robot_keys
 
 
 def check_generators(rngs: Sequence[np.random.Generator]) -> list[np.random.Generator]:
@@ -32,52 +28,48 @@ def check_generators(rngs: Sequence[np.random.Generator]) -> list[np.random.Gene
     return list(rngs)
 
 
-class NoiseBlock:
-    """Blocks of standard normals and uniforms per robot, shared by the sensors of a suite.
+class SensorDraws:
+    """The normals and uniforms each sensor of a suite draws per sample, for N robots.
 
     Parameters
     ----------
-    rngs : list of numpy.random.Generator, length N — one stream per robot
+    rngs : list of numpy.random.Generator, length N — one stream per robot (one key each)
     layout : dict of str -> (int, int) — each sensor's normals and uniforms per sample
 
-    The block holds one row per control tick: sensor ``s`` owns a fixed range of the row's
-    columns and uses them on the ticks it samples (the draws of the other ticks are left
-    unused). Each refill, every :data:`BLOCK` ticks, draws for each robot in turn
-    ``standard_normal((BLOCK, normals))`` and then ``random((BLOCK, uniforms))``, the
-    normals and uniforms of every sensor at once: two calls per robot and refill, whatever
-    the sensors.
+    Each tick owns ``stride`` words of every robot's stream (the sum over the layout);
+    sensor ``s`` owns a fixed range of them and draws it when it samples.
     """
 
     def __init__(self, rngs: list[np.random.Generator], layout: dict[str, tuple[int, int]]) -> None:
-        self._rngs = rngs
+        self.keys = robot_keys(rngs)
         n = len(rngs)
-        self._cols: dict[str, tuple[slice, slice]] = {}
-        nz = nu = 0
+        self._offset: dict[str, tuple[int, int]] = {}
+        self._z: dict[str, np.ndarray] = {}
+        self._u: dict[str, np.ndarray] = {}
+        words = 0
         for name, (a, b) in layout.items():
-            self._cols[name] = (slice(nz, nz + int(a)), slice(nu, nu + int(b)))
-            nz += int(a)
-            nu += int(b)
-        self.normals, self.uniforms = nz, nu
+            self._offset[name] = (words, words + int(a))
+            words += int(a) + int(b)
+            # one row per draw, one column per robot; refilled in place at each sample
+            self._z[name] = np.empty((int(a), n))
+            self._u[name] = np.empty((int(b), n))
+        self.stride = words
         self._tick = -1
-        # (BLOCK, N, K): one tick's draws for all robots are one contiguous (N, K) slab
-        self._z = np.empty((BLOCK, n, nz))
-        self._u = np.empty((BLOCK, n, nu))
 
     def advance(self) -> None:
-        """Move on to the next control tick's row (refilling every BLOCK ticks)."""
+        """Move on to the next control tick."""
         self._tick += 1
-        if self._tick % BLOCK == 0:
-            self._refill()
 
     def take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
-        """Sensor ``name``'s draws of this tick: normals (N, normals), uniforms (N, uniforms)."""
-        row = self._tick % BLOCK
-        z, u = self._cols[name]
-        return self._z[row][:, z], self._u[row][:, u]
+        """Sensor ``name``'s draws of this tick: normals (normals, N), uniforms (uniforms, N).
 
-    def _refill(self) -> None:
-        for i, g in enumerate(self._rngs):
-            if self.normals:
-                self._z[:, i, :] = g.standard_normal((BLOCK, self.normals))
-            if self.uniforms:
-                self._u[:, i, :] = g.random((BLOCK, self.uniforms))
+        The arrays are the sensor's own buffers, valid until its next :meth:`take`.
+        """
+        oz, ou = self._offset[name]
+        base = self._tick * self.stride
+        z, u = self._z[name], self._u[name]
+        if z.shape[0]:
+            fill_normals(self.keys, base + oz, z, EDGES, DENSITY)
+        if u.shape[0]:
+            fill_uniforms(self.keys, base + ou, u)
+        return z, u
