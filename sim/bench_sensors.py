@@ -3,8 +3,10 @@
 :func:`bench_sensors` is wired into ``skidpad bench``. The suite is deliberately full: a
 mecanum chassis with noisy encoders, three pods, an IMU, fixes from four landmarks and two
 range sensors, every noise term on; odometry from encoders and from pods with IMU heading.
-Ticks are timed in runs of whole noise blocks so the per-robot draws are amortised as in a
-real run.
+Each figure is the best of several repeats (other work on a shared machine only slows a
+run). The physics step of the same N robots (mecanum, 5 sub-steps of 1 ms per 5 ms tick, as
+in :mod:`sim.bench_physics`) is timed alongside, so the cost of sensors and odometry is also
+given as a fraction of it, which the machine's load affects far less than either figure.
 """
 
 from __future__ import annotations
@@ -18,7 +20,11 @@ from planners.se2 import compose, exp
 from sim.config_sensors import Encoders, Fixes, Imu, Pod, RangeSensor, SensorSuite
 from sim.field import Field, Landmark
 from sim.sensors import Sensors
-BLOCK = 128  # ticks timed per size (after as many warm-up ticks)
+from sim.bench_physics import bench_robot
+from sim.world import World
+
+_TICKS = 128  # ticks timed per repeat (after as many warm-up ticks)
+_REPEATS = 5
 
 _DT = 0.005
 _W_R, _A = 0.048, 0.33  # mecanum wheel radius, (wheelbase + track) / 2
@@ -53,6 +59,7 @@ def _field() -> Field:
 
 
 def _time_ticks(n: int, ticks: int) -> dict[str, float]:
+    # one repeat: fresh sensors and odometry, warmed for ``ticks`` ticks, then timed for as many
     suite, field = _suite(), _field()
     h = np.array([[1, -1, -_A], [1, 1, _A], [1, 1, -_A], [1, -1, _A]]) / _W_R
     sensors = Sensors(suite, field=field, wheel_count=4, dt=_DT)
@@ -90,21 +97,46 @@ def _time_ticks(n: int, ticks: int) -> dict[str, float]:
     return out
 
 
-def bench_sensors(*, sizes: tuple[int, ...] = (1, 1000), ticks: int = 2 * BLOCK) -> dict:
-    """Time one control tick of all sensors plus odometry.
+def _physics_tick(n: int, ticks: int, repeats: int) -> float:
+    # one control tick of World.advance for the same N (mecanum, best of the repeats)
+    world = World(bench_robot("mecanum"), n)
+    duty = np.tile(np.linspace(-0.8, 0.9, world.geom.wheels), (n, 1))
+    world.advance(duty, _DT)
+    best = np.inf
+    for _ in range(repeats):
+        start = time.perf_counter()
+        for _ in range(ticks):
+            world.advance(duty, _DT)
+        best = min(best, (time.perf_counter() - start) / ticks)
+    return best
+
+
+def bench_sensors(*, sizes: tuple[int, ...] = (1, 1000), ticks: int = _TICKS, quick: bool = False) -> dict:
+    """Time one control tick of all sensors plus odometry, and one physics step, per N.
 
     Parameters
     ----------
     sizes : tuple of int — batch sizes N to time
-    ticks : int — ticks timed per size (after as many warm-up ticks)
+    ticks : int — ticks timed per repeat (after as many warm-up ticks)
+    quick : bool — one repeat instead of five
 
     Returns
     -------
     dict
-        ``{"n=<N>": {"sensors_s": s, "odometry_s": s, "total_s": s}, ...}``: mean wall time
-        per tick [s] of ``Sensors.read`` and of two odometry updates (encoders; pods + IMU).
+        ``{"n=<N>": {"sensors_s": s, "odometry_s": s, "total_s": s, "physics_s": s,
+        "total_over_physics": ratio}, ...}``: wall time per tick [s] of ``Sensors.read``, of
+        two odometry updates (encoders; pods + IMU), their sum, one ``World.advance`` of the
+        same N, and the sum as a fraction of the physics step (each the best repeat).
     """
-    return {f"n={n}": _time_ticks(n, ticks) for n in sizes}
+    repeats = 1 if quick else _REPEATS
+    out = {}
+    for n in sizes:
+        runs = [_time_ticks(n, ticks) for _ in range(repeats)]
+        row = {key: min(r[key] for r in runs) for key in ("sensors_s", "odometry_s", "total_s")}
+        row["physics_s"] = _physics_tick(n, ticks, repeats)
+        row["total_over_physics"] = row["total_s"] / row["physics_s"]
+        out[f"n={n}"] = row
+    return out
 
 
 if __name__ == "__main__":  # pragma: no cover

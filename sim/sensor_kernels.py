@@ -55,22 +55,23 @@ def pod_kernel(twist, row, counts_per_m, scale, noise, skip, quantise, z, u, acc
 
 
 @njit(cache=True)
-def imu_kernel(twist, due, interval, density, walk, bias, scale, z, acc, out):
-    # the turn of the tick is the twist's dtheta, wrap(h - h_prev)
+def imu_kernel(twist, state, z, out, due, interval, density, walk):
+    # state rows: bias (walks), scale error, turn since the last sample; the turn of the
+    # tick is the twist's dtheta, wrap(h - h_prev)
     for i in range(twist.shape[0]):
-        acc[i] += twist[i, 2]
+        state[2, i] += twist[i, 2]
         if not due:
             out[i] = np.nan
             continue
         # bias random walk: b += K sqrt(T) w;  white rate noise: N / sqrt(T) w
         # (IEEE Std 952-1997: angle random walk N, rate random walk K)
         if walk > 0.0:
-            bias[i] += walk * np.sqrt(interval) * z[1, i]
-        r = (1.0 + scale[i]) * acc[i] / interval + bias[i]
+            state[0, i] += walk * np.sqrt(interval) * z[1, i]
+        r = (1.0 + state[1, i]) * state[2, i] / interval + state[0, i]
         if density > 0.0:
             r += density / np.sqrt(interval) * z[0, i]
         out[i] = r
-        acc[i] = 0.0
+        state[2, i] = 0.0
 
 
 @njit(cache=True)

@@ -79,6 +79,8 @@ class Sensors:
             self._draws["fix"] = (3 * (f.sigma_xy > 0.0 or f.sigma_heading > 0.0), int(f.dropout > 0.0))
         if any(r.sigma > 0.0 for r in c.range):
             self._draws["range"] = (len(c.range), 0)
+        if c.encoders is not None:
+            self._counts_per_rad = c.encoders.counts_per_rev / _TWO_PI
         if c.pods:
             self._pod_row = np.ascontiguousarray(
                 pod_matrix(np.array([p.at for p in c.pods]), np.array([p.direction for p in c.pods]))
@@ -162,10 +164,14 @@ class Sensors:
             self._pod_scale = pick("pods.scale_error", np.tile([p.scale_error for p in c.pods], (n, 1)))
             self._pod_acc = np.zeros((n, len(c.pods)))
         if c.imu is not None:
-            self._bias = pick("imu.bias", np.full(n, c.imu.bias))
-            self._imu_scale = pick("imu.scale_error", np.full(n, c.imu.scale_error))
-            self._imu_acc = np.zeros(n)
+            # rows: bias [rad/s] (it walks), scale error, turn since the last sample [rad]
+            self._imu_state = np.stack([
+                pick("imu.bias", np.full(n, c.imu.bias)),
+                pick("imu.scale_error", np.full(n, c.imu.scale_error)),
+                np.zeros(n),
+            ])
             self._imu_last = 0
+            self._imu_noisy = "imu" in self._draws
 
     # ------------------------------------------------------------------ schedule
     def _take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
@@ -200,8 +206,9 @@ class Sensors:
                 f"sensors: t must be the next control tick {self.t0 + k * self.dt!r}, got {t!r}"
             )
         n, c = self.n, self.config
-        if np.shape(pose) != (n, 3):
-            raise ValueError(f"sensors: pose must have shape ({n}, 3), got {np.shape(pose)}")
+        if type(pose) is not np.ndarray or pose.shape != (n, 3):
+            if np.shape(pose) != (n, 3):
+                raise ValueError(f"sensors: pose must have shape ({n}, 3), got {np.shape(pose)}")
         pose = as_rows(pose, (n, 3))
         self._k = k
         self._noise.advance()
@@ -211,15 +218,17 @@ class Sensors:
         if self._motion:  # the tick's arc; prev and its heading's cos/sin move on to pose
             motion_kernel(self._prev, self._trig, pose, self._twist)
         if c.encoders is not None:
-            if np.shape(wheel_angle) != (n, self.wheel_count):
-                raise ValueError(
-                    f"sensors: wheel_angle must have shape ({n}, {self.wheel_count}), got {np.shape(wheel_angle)}"
-                )
-            wa = as_rows(wheel_angle, (n, self.wheel_count))
+            shape = (n, self.wheel_count)
+            if type(wheel_angle) is not np.ndarray or wheel_angle.shape != shape:
+                if np.shape(wheel_angle) != shape:
+                    raise ValueError(
+                        f"sensors: wheel_angle must have shape {shape}, got {np.shape(wheel_angle)}"
+                    )
             e = c.encoders
-            out.encoder_counts = np.empty((n, self.wheel_count))
-            z, _ = self._take("enc")
-            encoder_kernel(wa, e.counts_per_rev / _TWO_PI, e.noise, e.quantise, z, out.encoder_counts)
+            out.encoder_counts = np.empty(shape)
+            z = self._take("enc")[0] if e.noise > 0.0 else self._no_draws
+            encoder_kernel(as_rows(wheel_angle, shape), self._counts_per_rad, e.noise, e.quantise, z,
+                           out.encoder_counts)
         if c.pods:
             out.pod_counts = np.empty((n, len(c.pods)))
             z, u = self._take("pod")
@@ -237,10 +246,10 @@ class Sensors:
         imu = self.config.imu
         due = k > 0 and self._due(k, imu.rate)
         interval = (k - self._imu_last) * self.dt if due else 0.0
-        z = self._take("imu")[0] if due else self._no_draws
+        z = self._take("imu")[0] if due and self._imu_noisy else self._no_draws
         out.gyro_rate = np.empty(self.n)
-        imu_kernel(self._twist, due, max(interval, 1e-300), imu.rate_noise,
-                    imu.bias_walk, self._bias, self._imu_scale, z, self._imu_acc, out.gyro_rate)
+        imu_kernel(self._twist, self._imu_state, z, out.gyro_rate, due, max(interval, 1e-300),
+                   imu.rate_noise, imu.bias_walk)
         if due:
             self._imu_last = k
         out.imu_valid = self._constant(due, np.bool_)
