@@ -126,15 +126,17 @@ def project_one(px, py, ps, qx, qy, s_prev, back, ahead):
     m = px.shape[0]
     lo_s = s_prev - back
     hi_s = s_prev + ahead
-    # first segment whose end lies past lo_s (binary search on increasing ps)
-    lo, hi = 0, m - 1
-    while lo < hi:
-        mid = (lo + hi) // 2
-        if ps[mid + 1] < lo_s:
-            lo = mid + 1
-        else:
-            hi = mid
-    lo = max(0, min(lo, m - 2))  # a window past either end still searches the end segment
+    # first segment whose end lies past lo_s: a walk from where even spacing would put it
+    # (the plan's points are close to evenly spaced, so the walk is a step or two; it is
+    # exact for any increasing ps), the end segment when none (a window past either end
+    # still searches the end segment)
+    lo = 0
+    if m > 2 and ps[m - 1] > ps[0]:
+        lo = int(min(max((lo_s - ps[0]) * ((m - 1) / (ps[m - 1] - ps[0])), 0.0), m - 2.0))
+    while lo > 0 and ps[lo] >= lo_s:
+        lo -= 1
+    while lo < m - 2 and ps[lo + 1] < lo_s:
+        lo += 1
     best = np.inf
     best_s = ps[0]
     best_d = 0.0

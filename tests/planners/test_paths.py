@@ -125,3 +125,37 @@ def test_spline_errors(pts, dirs, match):
 def test_spline_needs_two_points():
     with pytest.raises(PlanError, match="points must number at least 2, got 1"):
         spline_path(np.zeros((1, 2)))
+
+
+def test_plan_projection_window_start_matches_a_full_search():
+    # planners.plan.project_one finds the window's first segment by a walk from where even
+    # spacing would put it; on unevenly spaced points it must give what a search of every
+    # segment in the window gives (the nearest point whose arc length is in the window)
+    from planners.plan import project_one
+
+    rng = np.random.default_rng(5)
+    for trial in range(40):
+        m = int(rng.integers(1, 60))
+        steps = rng.uniform(0.001, 0.05, m - 1) * (rng.uniform(size=m - 1) < 0.9)  # some repeats
+        ps = np.concatenate([[0.0], np.cumsum(steps)])
+        ang = np.cumsum(rng.normal(0.0, 0.3, m))
+        px = np.concatenate([[0.0], np.cumsum(steps * np.cos(ang[1:]))])
+        py = np.concatenate([[0.0], np.cumsum(steps * np.sin(ang[1:]))])
+        for _ in range(10):
+            qx, qy = rng.uniform(-0.3, 0.6, 2)
+            s_prev = rng.uniform(-0.1, ps[-1] + 0.1)
+            s, d = project_one(px, py, ps, qx, qy, s_prev, 0.05, 0.05)
+            # brute force: segments from the first whose end passes s_prev - back
+            first = next((j for j in range(m - 1) if ps[j + 1] >= s_prev - 0.05), max(m - 2, 0))
+            best = (np.inf, ps[0], 0.0)
+            j = first
+            while j < m - 1 and (ps[j] <= s_prev + 0.05 or j == first):
+                e = np.array([px[j + 1] - px[j], py[j + 1] - py[j]])
+                ll = e @ e
+                u = min(1.0, max(0.0, ((qx - px[j]) * e[0] + (qy - py[j]) * e[1]) / ll)) if ll > 0 else 0.0
+                c = np.array([px[j] + u * e[0] - qx, py[j] + u * e[1] - qy])
+                if c @ c < best[0]:
+                    side = e[0] * (qy - py[j]) - e[1] * (qx - px[j])
+                    best = (c @ c, ps[j] + u * (ps[j + 1] - ps[j]), np.sqrt(c @ c) * (1 if side >= 0 else -1))
+                j += 1
+            assert (s, d) == pytest.approx(best[1:], abs=1e-12), (trial, m, s_prev)
