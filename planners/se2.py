@@ -63,9 +63,9 @@ def turn_trig(c: float, s: float, dtheta: float, heading: float) -> tuple[float,
     """cos and sin of ``heading``, given those of ``heading - dtheta`` and the turn ``dtheta``.
 
     A small turn rotates ``(c, s)`` by ``cos dtheta = 1 - dtheta B``, ``sin dtheta = dtheta A``
-    from :func:`arc_series` (no trigonometric call) and renormalises, so rounding cannot
-    build up over many turns; a turn beyond :data:`SERIES_MAX` takes cos and sin of
-    ``heading`` afresh.
+    from :func:`arc_series` (no trigonometric call, no division) and pulls the result back to
+    unit length, so rounding cannot build up over many turns; a turn beyond
+    :data:`SERIES_MAX` takes cos and sin of ``heading`` afresh.
     """
     if abs(dtheta) > SERIES_MAX:
         return np.cos(heading), np.sin(heading)
@@ -74,8 +74,9 @@ def turn_trig(c: float, s: float, dtheta: float, heading: float) -> tuple[float,
     sd = dtheta * a
     c2 = c * cd - s * sd
     s2 = s * cd + c * sd
-    norm = 1.0 / np.sqrt(c2 * c2 + s2 * s2)
-    return c2 * norm, s2 * norm
+    # one Newton step towards 1 / |(c2, s2)| (its length is 1 to rounding, so one suffices)
+    k = 1.5 - 0.5 * (c2 * c2 + s2 * s2)
+    return k * c2, k * s2
 
 
 @njit(cache=True, inline="always")
@@ -117,8 +118,8 @@ def log_one(x: float, y: float, h: float) -> tuple[float, float, float]:
     theta = wrap_one(h)
     a, b = _arc_coefficients(theta)
     # V^-1 = [[A, B], [-B, A]] / (A^2 + B^2)
-    d = a * a + b * b
-    return (a * x + b * y) / d, (-b * x + a * y) / d, theta
+    inv = 1.0 / (a * a + b * b)
+    return (a * x + b * y) * inv, (-b * x + a * y) * inv, theta
 
 
 @njit(cache=True)
