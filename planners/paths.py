@@ -39,7 +39,7 @@ from typing import NamedTuple
 import numpy as np
 
 from planners.errors import PlanError
-from planners.plan import _project_kernel
+from planners.plan import _project_kernel, segment_block
 
 # columns: p0, d0, dd0, dd1, d1, p1; rows: coefficient of u^0 .. u^5 (quintic Hermite basis)
 _HERMITE = np.array(
@@ -198,6 +198,11 @@ class Path:
         xy = self.evaluate(s).xy
         return s, np.ascontiguousarray(xy[:, 0]), np.ascontiguousarray(xy[:, 1])
 
+    @cached_property
+    def _segments(self) -> np.ndarray:
+        ps, px, py = self.polyline
+        return segment_block(px, py, ps)
+
     def project(
         self, points: np.ndarray, s_prev: np.ndarray, *, back: float = 0.05, ahead: float = 0.5
     ) -> tuple[np.ndarray, np.ndarray]:
@@ -217,11 +222,10 @@ class Path:
         s : ndarray, shape (N,) — arc length of the nearest point [m]
         cross_track : ndarray, shape (N,) — signed distance [m], positive left of travel
         """
-        ps, px, py = self.polyline
         points = np.ascontiguousarray(points, dtype=np.float64).reshape(-1, 2)
         s_prev = np.ascontiguousarray(s_prev, dtype=np.float64).reshape(-1)
         s_out, d_out = np.empty(len(points)), np.empty(len(points))
-        _project_kernel(px, py, ps, points, s_prev, back, ahead, s_out, d_out)
+        _project_kernel(self._segments, points, s_prev, back, ahead, s_out, d_out)
         return s_out, d_out
 
 

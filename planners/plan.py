@@ -15,6 +15,7 @@ Two samplings live side by side:
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 from numba import njit
@@ -59,6 +60,11 @@ class Plan:
     path_s: np.ndarray
     path_heading: np.ndarray
     notes: dict = field(default_factory=dict)
+
+    @cached_property
+    def segments(self) -> np.ndarray:
+        """The path packed for the compiled projection (:func:`segment_block`), (6, M)."""
+        return segment_block(self.path_x, self.path_y, self.path_s)
 
     @property
     def duration(self) -> float:
@@ -119,10 +125,29 @@ class Plan:
         return self.pose[k].copy(), vel, acc
 
 
-@njit(cache=True, inline="always")
-def project_one(px, py, ps, qx, qy, s_prev, back, ahead):
+def segment_block(x: np.ndarray, y: np.ndarray, s: np.ndarray) -> np.ndarray:
+    """A polyline packed for :func:`project_one`, shape (6, M).
+
+    Rows: point x, y [m], arc length s [m], and for segment j (point j to j + 1) its vector
+    ex, ey [m] and ``1 / (ex^2 + ey^2)`` [1/m^2] (0 for a zero-length segment and in the
+    last column), so the search divides nowhere.
+    """
+    x, y, s = (np.asarray(v, dtype=np.float64) for v in (x, y, s))
+    out = np.zeros((6, len(x)))
+    out[0], out[1], out[2] = x, y, s
+    out[3, :-1] = np.diff(x)
+    out[4, :-1] = np.diff(y)
+    ll = out[3] ** 2 + out[4] ** 2
+    np.divide(1.0, ll, out=out[5], where=ll > 0.0)
+    return out
+
+
+@njit(cache=True)
+def project_one(seg, qx, qy, s_prev, back, ahead):
     """Arc length and signed distance of the nearest path point to ``(qx, qy)`` whose arc
-    length lies in ``[s_prev - back, s_prev + ahead]`` (the scalar core of :func:`project`)."""
+    length lies in ``[s_prev - back, s_prev + ahead]`` (the scalar core of :func:`project`;
+    ``seg`` from :func:`segment_block`)."""
+    px, py, ps = seg[0], seg[1], seg[2]
     m = px.shape[0]
     lo_s = s_prev - back
     hi_s = s_prev + ahead
@@ -137,37 +162,38 @@ def project_one(px, py, ps, qx, qy, s_prev, back, ahead):
         lo -= 1
     while lo < m - 2 and ps[lo + 1] < lo_s:
         lo += 1
+    # last segment of the window: those that start at or before hi_s (at least lo)
+    hi = lo
+    while hi + 1 < m - 1 and ps[hi + 1] <= hi_s:
+        hi += 1
     best = np.inf
-    best_s = ps[0]
-    best_d = 0.0
-    j = lo
-    while j < m - 1 and (ps[j] <= hi_s or j == lo):
-        ax = px[j]
-        ay = py[j]
-        ex = px[j + 1] - ax
-        ey = py[j + 1] - ay
-        ll = ex * ex + ey * ey
-        u = 0.0
-        if ll > 0.0:
-            u = ((qx - ax) * ex + (qy - ay) * ey) / ll
-            u = min(1.0, max(0.0, u))
-        cx = ax + u * ex - qx
-        cy = ay + u * ey - qy
+    best_j = lo
+    best_u = 0.0
+    for j in range(lo, min(hi + 1, m - 1)):
+        # branch-free: the nearest point of segment j, kept by selects
+        wx = qx - px[j]
+        wy = qy - py[j]
+        u = min(1.0, max(0.0, (wx * seg[3, j] + wy * seg[4, j]) * seg[5, j]))
+        cx = u * seg[3, j] - wx
+        cy = u * seg[4, j] - wy
         dist2 = cx * cx + cy * cy
-        if dist2 < best:
-            best = dist2
-            best_s = ps[j] + u * (ps[j + 1] - ps[j])
-            # signed: positive when the point lies left of the direction of travel
-            cross = ex * (qy - ay) - ey * (qx - ax)
-            best_d = np.sqrt(dist2) if cross >= 0.0 else -np.sqrt(dist2)
-        j += 1
-    return best_s, best_d
+        nearer = dist2 < best
+        best = dist2 if nearer else best
+        best_j = j if nearer else best_j
+        best_u = u if nearer else best_u
+    if m < 2 or not best < np.inf:  # a single point, or a point that is not finite
+        return ps[0], 0.0
+    j = best_j
+    # signed: positive when the point lies left of the direction of travel
+    cross = seg[3, j] * (qy - py[j]) - seg[4, j] * (qx - px[j])
+    d = np.sqrt(best)
+    return ps[j] + best_u * (ps[j + 1] - ps[j]), d if cross >= 0.0 else -d
 
 
 @njit(cache=True)
-def _project_kernel(px, py, ps, points, s_prev, back, ahead, s_out, d_out):
+def _project_kernel(seg, points, s_prev, back, ahead, s_out, d_out):
     for i in range(points.shape[0]):
-        s_out[i], d_out[i] = project_one(px, py, ps, points[i, 0], points[i, 1], s_prev[i], back, ahead)
+        s_out[i], d_out[i] = project_one(seg, points[i, 0], points[i, 1], s_prev[i], back, ahead)
 
 
 def project(
@@ -200,9 +226,7 @@ def project(
     s_prev = np.ascontiguousarray(s_prev, dtype=np.float64).reshape(-1)
     s_out = np.empty(points.shape[0])
     d_out = np.empty(points.shape[0])
-    _project_kernel(
-        plan.path_x, plan.path_y, plan.path_s, points, s_prev, back, ahead, s_out, d_out
-    )
+    _project_kernel(plan.segments, points, s_prev, back, ahead, s_out, d_out)
     return s_out, d_out
 
 

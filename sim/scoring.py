@@ -114,7 +114,7 @@ def _score_kernel(
             acc[_LAST_Y, i] = pose[i, 1]
             continue
         # progress-respecting projection of the true pose onto the path (planners.plan.project)
-        s, d = project_one(path[0], path[1], path[2], pose[i, 0], pose[i, 1], acc[_S, i], 0.05, ahead)
+        s, d = project_one(path, pose[i, 0], pose[i, 1], acc[_S, i], 0.05, ahead)
         acc[_CROSS, i] = d
         acc[_S, i] = s
         ad = abs(d)
@@ -175,7 +175,7 @@ class ScoreKeeper:
         self._acc[_MIN_VB] = np.inf
         for name, row in zip(_ROWS, self._acc):
             setattr(self, name, row)
-        self._path = np.ascontiguousarray(np.stack([plan.path_x, plan.path_y, plan.path_s]))
+        self._path = plan.segments
         self.xt_abs = np.zeros((max_ticks, n), dtype=np.float32)
         self._spare = np.empty(n, dtype=np.float32)
         self._have_last = False

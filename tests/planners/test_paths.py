@@ -131,7 +131,7 @@ def test_plan_projection_window_start_matches_a_full_search():
     # planners.plan.project_one finds the window's first segment by a walk from where even
     # spacing would put it; on unevenly spaced points it must give what a search of every
     # segment in the window gives (the nearest point whose arc length is in the window)
-    from planners.plan import project_one
+    from planners.plan import project_one, segment_block
 
     rng = np.random.default_rng(5)
     for trial in range(40):
@@ -144,7 +144,7 @@ def test_plan_projection_window_start_matches_a_full_search():
         for _ in range(10):
             qx, qy = rng.uniform(-0.3, 0.6, 2)
             s_prev = rng.uniform(-0.1, ps[-1] + 0.1)
-            s, d = project_one(px, py, ps, qx, qy, s_prev, 0.05, 0.05)
+            s, d = project_one(segment_block(px, py, ps), qx, qy, s_prev, 0.05, 0.05)
             # brute force: segments from the first whose end passes s_prev - back
             first = next((j for j in range(m - 1) if ps[j + 1] >= s_prev - 0.05), max(m - 2, 0))
             best = (np.inf, ps[0], 0.0)
