@@ -21,7 +21,7 @@ from planners.odometry import count_increment
 from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
-from planners.se2 import compose_one, exp_one, wrap_one
+from planners.se2 import exp_one, turn_trig, wrap_one
 from planners.trackers import TRACKERS
 from sim.scenario import Scenario, robot_value
 from sim.scoring import ScoreKeeper
@@ -74,11 +74,12 @@ def _judge_kernel(active, status, body, limits, finish, at_goal, late, codes):
 
 
 @njit(cache=True)
-def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo_pose, speed, twist):
+def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo, speed, twist):
     """From one tick of encoder counts: wheel speeds (counts - previous) * 2 pi / (cpr dt), their
     body twist (row by row, as planners.kinematics), and the scorecard's dead reckoning with
-    the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"); the
-    counts become the previous ones."""
+    the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"):
+    ``odo`` (N, 5) holds x, y, heading and the heading's cos, sin, carried from tick to tick
+    (planners.se2.turn_trig); the counts become the previous ones."""
     for i in range(counts.shape[0]):
         for j in range(counts.shape[1]):
             speed[i, j] = (counts[i, j] - prev[i, j]) * count_to_speed
@@ -89,9 +90,12 @@ def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo_
             twist[i, a] = acc
         dx, dy, dth = count_increment(counts, prev, odo_gain, i)
         ex, ey, eh = exp_one(dx, dy, dth)
-        odo_pose[i, 0], odo_pose[i, 1], odo_pose[i, 2] = compose_one(
-            odo_pose[i, 0], odo_pose[i, 1], odo_pose[i, 2], ex, ey, eh
-        )
+        c, s = odo[i, 3], odo[i, 4]
+        odo[i, 0] += c * ex - s * ey
+        odo[i, 1] += s * ex + c * ey
+        h = wrap_one(odo[i, 2] + eh)
+        odo[i, 2] = h
+        odo[i, 3], odo[i, 4] = turn_trig(c, s, eh, h)
 
 
 #: stream numbers inside one run's SeedSequence
@@ -159,7 +163,9 @@ class Simulation:
         self._needs_truth = getattr(self.estimator, "NEEDS_TRUTH", False)
         self.estimator.reset(pose0, n, rngs=[np.random.default_rng(s[_ESTIMATOR]) for s in streams])
         # the scorecard's encoder dead reckoning, with the geometry the odometry assumes
-        self.odometry_pose = pose0.copy() if sc.sensors.encoders is not None else None
+        # x, y, heading and the heading's cos, sin; odometry_pose is the pose columns
+        self._odo = np.column_stack([pose0, np.cos(pose0[:, 2]), np.sin(pose0[:, 2])])
+        self.odometry_pose = self._odo[:, :3] if sc.sensors.encoders is not None else None
         if sc.sensors.encoders is not None:
             enc = sc.sensors.encoders
             forward = assumed_forward_matrix(self.geom, radius_scale=enc.radius_scale, track_scale=enc.track_scale)
@@ -238,7 +244,7 @@ class Simulation:
         twist = np.empty((counts.shape[0], 3))
         _encoder_motion_kernel(
             counts, self._prev_counts, self._count_to_speed, self._forward, self._odo_gain,
-            self.odometry_pose, speed, twist,
+            self._odo, speed, twist,
         )
         return speed, twist
 
