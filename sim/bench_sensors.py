@@ -5,8 +5,9 @@ mecanum chassis with noisy encoders, three pods, an IMU, fixes from four landmar
 range sensors, every noise term on; odometry from encoders and from pods with IMU heading.
 Each figure is the best of several repeats (other work on a shared machine only slows a
 run). The physics step of the same N robots (mecanum, 5 sub-steps of 1 ms per 5 ms tick, as
-in :mod:`sim.bench_physics`) is timed alongside, so the cost of sensors and odometry is also
-given as a fraction of it, which the machine's load affects far less than either figure.
+in :mod:`sim.bench_physics`, on one thread like the sensors) is timed in turn with them, so
+the cost of sensors and odometry is also given as a fraction of it, which the machine's load
+affects far less than either figure.
 """
 
 from __future__ import annotations
@@ -97,18 +98,20 @@ def _time_ticks(n: int, ticks: int) -> dict[str, float]:
     return out
 
 
-def _physics_tick(n: int, ticks: int, repeats: int) -> float:
-    # one control tick of World.advance for the same N (mecanum, best of the repeats)
-    world = World(bench_robot("mecanum"), n)
-    duty = np.tile(np.linspace(-0.8, 0.9, world.geom.wheels), (n, 1))
-    world.advance(duty, _DT)
-    best = np.inf
-    for _ in range(repeats):
+class _PhysicsTick:
+    """One control tick of ``World.advance`` for N robots (mecanum, as sim.bench_physics), on
+    one thread like the sensors (the World's adaptive threading off)."""
+
+    def __init__(self, n: int) -> None:
+        self.world = World(bench_robot("mecanum"), n, threads=False)
+        self.duty = np.tile(np.linspace(-0.8, 0.9, self.world.geom.wheels), (n, 1))
+        self.world.advance(self.duty, _DT)
+
+    def time(self, ticks: int) -> float:
         start = time.perf_counter()
         for _ in range(ticks):
-            world.advance(duty, _DT)
-        best = min(best, (time.perf_counter() - start) / ticks)
-    return best
+            self.world.advance(self.duty, _DT)
+        return (time.perf_counter() - start) / ticks
 
 
 def bench_sensors(*, sizes: tuple[int, ...] = (1, 1000), ticks: int = _TICKS, quick: bool = False) -> dict:
@@ -126,14 +129,19 @@ def bench_sensors(*, sizes: tuple[int, ...] = (1, 1000), ticks: int = _TICKS, qu
         ``{"n=<N>": {"sensors_s": s, "odometry_s": s, "total_s": s, "physics_s": s,
         "total_over_physics": ratio}, ...}``: wall time per tick [s] of ``Sensors.read``, of
         two odometry updates (encoders; pods + IMU), their sum, one ``World.advance`` of the
-        same N, and the sum as a fraction of the physics step (each the best repeat).
+        same N on one thread, and the sum as a fraction of the physics step (each the best
+        repeat).
     """
     repeats = 1 if quick else _REPEATS
     out = {}
     for n in sizes:
-        runs = [_time_ticks(n, ticks) for _ in range(repeats)]
+        physics = _PhysicsTick(n)
+        runs, steps = [], []
+        for _ in range(repeats):  # interleaved, so a change of load meets both alike
+            runs.append(_time_ticks(n, ticks))
+            steps.append(physics.time(ticks))
         row = {key: min(r[key] for r in runs) for key in ("sensors_s", "odometry_s", "total_s")}
-        row["physics_s"] = _physics_tick(n, ticks, repeats)
+        row["physics_s"] = min(steps)
         row["total_over_physics"] = row["total_s"] / row["physics_s"]
         out[f"n={n}"] = row
     return out

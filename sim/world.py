@@ -137,6 +137,8 @@ class World:
         ("mass", "traction.mu", "motor.stall_torque", ...) overriding the nominal robot
     substep : float — physics sub-step [s]; :meth:`check_substep` may lower it
     pose0 : ndarray (N, 3), optional — start poses (default all at the origin)
+    threads : bool — allow numba's threads for a large batch when the clock says they pay
+        (default); False keeps the physics on the calling thread
 
     Attributes
     ----------
@@ -164,6 +166,7 @@ class World:
         params: Mapping[str, np.ndarray] | None = None,
         substep: float = 0.001,
         pose0: np.ndarray | None = None,
+        threads: bool = True,
     ) -> None:
         self.robot = robot
         self.n = n = int(n)
@@ -201,7 +204,7 @@ class World:
         # no heading seen yet: the first step computes its cosine and sine
         self._robot[ROBOT_ROWS.index("heading_seen")] = np.nan
         self._wheel[WHEEL_ROWS.index("load")] = self.params[len(COLUMNS):].T
-        self._threads = ThreadChoice() if n >= self.PARALLEL_MIN else None
+        self._threads = ThreadChoice() if threads and n >= self.PARALLEL_MIN else None
         # (N, W), or (N, 2) [left, right] for skid and differential
         self._duty_shapes = {(n, w)} | ({(n, 2)} if self.geom.kind != "mecanum" else set())
         self.pose, self.velocity = self._body
