@@ -35,6 +35,14 @@ def wrap_one(angle: float) -> float:
     return a - np.pi
 
 
+@njit(cache=True, inline="always")
+def wrap_once(angle: float) -> float:
+    """Wrap an angle in (-3 pi, 3 pi] to (-pi, pi] by at most one turn (a wrapped heading
+    plus a wrapped turn lies there). Branch-free selects, so compiled loops vectorise."""
+    a = angle - 2.0 * np.pi if angle > np.pi else angle
+    return a + 2.0 * np.pi if a <= -np.pi else a
+
+
 @njit(cache=True, error_model="numpy")
 def arc_series(theta: float) -> tuple[float, float]:
     """``A = sin(t) / t`` and ``B = (1 - cos(t)) / t`` by their Taylor series (``|t| <= SERIES_MAX``).

@@ -17,7 +17,7 @@ from numba import njit
 
 from planners.control import WheelController, feedforward_from_motor
 from planners.estimators import ESTIMATORS
-from planners.odometry import count_increment
+from planners.odometry_kernels import count_increment
 from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
