@@ -65,58 +65,38 @@ def _twists(counts, prev, gain, flags, gyro, valid, interval, imu, dt, pose, ste
             q[3 * i + 2] = dth
 
 
-@njit(cache=True, inline="always")
-def _series_step(dx, dy, t):
-    # arc (Sola 2018, eq. 156) and the turn's cosine and sine from the same series
-    a, b = arc_series(t)
-    return a * dx - b * dy, b * dx + a * dy, 1.0 - t * b, t * a
-
-
 @njit(cache=True)
-def _near_steps(pose, cos_h, sin_h, step):
-    """Pass 2 with positions: rows with ``|dtheta| <= SERIES_MAX`` (the others untouched);
-    returns how many rows are left for pass 3."""
+def _near_steps(pose, cos_h, sin_h, step, positions):
+    """Pass 2: rows with ``|dtheta| <= SERIES_MAX`` (the others untouched); x, y and their
+    cos, sin only with ``positions``. Returns how many rows are left for pass 3."""
     n = pose.shape[0]
     p = pose.reshape(3 * n)
     q = step.reshape(3 * n)
     far = 0
     for i in range(n):
+        x0, y0, h0, c, s = p[3 * i], p[3 * i + 1], p[3 * i + 2], cos_h[i], sin_h[i]
         dx, dy, t = q[3 * i], q[3 * i + 1], q[3 * i + 2]
         near = abs(t) <= SERIES_MAX
-        ex, ey, cu, su = _series_step(dx, dy, t)
-        c, s = cos_h[i], sin_h[i]
+        move = near & positions  # selects, not branches: the loop stays vectorised
+        # arc (Sola 2018, eq. 156) and the turn's cos t = 1 - t B, sin t = t A
+        a, b = arc_series(t)
+        ex = a * dx - b * dy
+        ey = b * dx + a * dy
+        cu = 1.0 - t * b
+        su = t * a
         # pose * exp(xi), as planners.se2.compose_one with the carried cos, sin
-        x = p[3 * i] + c * ex - s * ey
-        y = p[3 * i + 1] + s * ex + c * ey
-        h = wrap_once(p[3 * i + 2] + t)
+        x = x0 + c * ex - s * ey
+        y = y0 + s * ex + c * ey
+        h = wrap_once(h0 + t)
         c2 = c * cu - s * su
         s2 = s * cu + c * su
         # one Newton step towards 1 / |(c2, s2)|: the rounding of the sums never piles up
         k = 1.5 - 0.5 * (c2 * c2 + s2 * s2)
-        p[3 * i] = x if near else p[3 * i]
-        p[3 * i + 1] = y if near else p[3 * i + 1]
-        p[3 * i + 2] = h if near else p[3 * i + 2]
-        cos_h[i] = k * c2 if near else c
-        sin_h[i] = k * s2 if near else s
-        q[3 * i] = ex if near else dx
-        q[3 * i + 1] = ey if near else dy
-        far += not near
-    return far
-
-
-@njit(cache=True)
-def _near_headings(pose, step):
-    """Pass 2 without positions: the step's arc and the heading alone."""
-    n = pose.shape[0]
-    p = pose.reshape(3 * n)
-    q = step.reshape(3 * n)
-    far = 0
-    for i in range(n):
-        dx, dy, t = q[3 * i], q[3 * i + 1], q[3 * i + 2]
-        near = abs(t) <= SERIES_MAX
-        ex, ey, _, _ = _series_step(dx, dy, t)
-        h = wrap_once(p[3 * i + 2] + t)
-        p[3 * i + 2] = h if near else p[3 * i + 2]
+        p[3 * i] = x if move else x0
+        p[3 * i + 1] = y if move else y0
+        p[3 * i + 2] = h if near else h0
+        cos_h[i] = k * c2 if move else c
+        sin_h[i] = k * s2 if move else s
         q[3 * i] = ex if near else dx
         q[3 * i + 1] = ey if near else dy
         far += not near
@@ -164,9 +144,6 @@ def odometry_kernel(pose, cs, counts, prev, gain, flags, gyro, valid, interval, 
     """
     _twists(counts, prev, gain, flags, gyro, valid, interval, imu, dt, pose, step)
     positions = (flags & POSITIONS) != 0
-    if positions:
-        far = _near_steps(pose, cs[0], cs[1], step)
-    else:
-        far = _near_headings(pose, step)
+    far = _near_steps(pose, cs[0], cs[1], step, positions)
     if far:
         _far_steps(pose, cs, step, positions)
