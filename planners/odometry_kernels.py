@@ -25,28 +25,47 @@ USE_IMU, OWN_HEADING, POSITIONS = 1, 2, 4
 
 
 @njit(cache=True, inline="always")
-def count_increment(counts, prev, gain, i):
+def count_increment(c, p, gain, i, w):
     """Body displacement ``gain @ (counts - prev)`` of robot ``i`` over one tick (the counts
-    become the previous ones): dx, dy [m], dtheta [rad], body frame."""
+    become the previous ones): dx, dy [m], dtheta [rad], body frame.
+
+    ``c``, ``p`` are flat ``(N * w,)`` views of the counts and the previous counts (N, w):
+    constant strides, so LLVM sees that rows do not overlap.
+    """
     dx = 0.0
     dy = 0.0
     dth = 0.0
-    for j in range(counts.shape[1]):
-        d = counts[i, j] - prev[i, j]
-        prev[i, j] = counts[i, j]
+    for j in range(w):
+        d = c[i * w + j] - p[i * w + j]
+        p[i * w + j] = c[i * w + j]
         dx += gain[0, j] * d
         dy += gain[1, j] * d
         dth += gain[2, j] * d
     return dx, dy, dth
 
 
+@njit(cache=True, inline="always")
+def _count_rows(c, p, gain, q, n, w):
+    # a constant w lets LLVM unroll each row
+    for i in range(n):
+        q[3 * i], q[3 * i + 1], q[3 * i + 2] = count_increment(c, p, gain, i, w)
+
+
 @njit(cache=True)
 def _twists(counts, prev, gain, flags, gyro, valid, interval, imu, dt, pose, step):
     """Pass 1: each robot's body twist into ``step``."""
     n, w = counts.shape
-    q = step.reshape(3 * n)  # flat views: constant strides, so LLVM sees rows do not overlap
-    for i in range(n):
-        q[3 * i], q[3 * i + 1], q[3 * i + 2] = count_increment(counts, prev, gain, i)
+    c = counts.reshape(n * w)
+    p = prev.reshape(n * w)
+    q = step.reshape(3 * n)
+    if w == 2:  # the usual counts of wheels and pods, unrolled
+        _count_rows(c, p, gain, q, n, 2)
+    elif w == 3:
+        _count_rows(c, p, gain, q, n, 3)
+    elif w == 4:
+        _count_rows(c, p, gain, q, n, 4)
+    else:
+        _count_rows(c, p, gain, q, n, w)
     if flags & USE_IMU:
         own_heading = (flags & OWN_HEADING) != 0
         for i in range(n):

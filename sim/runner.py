@@ -79,15 +79,17 @@ def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo_
     body twist (row by row, as planners.kinematics), and the scorecard's dead reckoning with
     the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"); the
     counts become the previous ones."""
-    for i in range(counts.shape[0]):
-        for j in range(counts.shape[1]):
+    n, w = counts.shape
+    flat, flat_prev = np.ascontiguousarray(counts).reshape(n * w), prev.reshape(n * w)
+    for i in range(n):
+        for j in range(w):
             speed[i, j] = (counts[i, j] - prev[i, j]) * count_to_speed
         for a in range(3):
             acc = 0.0
-            for j in range(counts.shape[1]):
+            for j in range(w):
                 acc += speed[i, j] * forward[a, j]
             twist[i, a] = acc
-        dx, dy, dth = count_increment(counts, prev, odo_gain, i)
+        dx, dy, dth = count_increment(flat, flat_prev, odo_gain, i, w)
         ex, ey, eh = exp_one(dx, dy, dth)
         odo_pose[i, 0], odo_pose[i, 1], odo_pose[i, 2] = compose_one(
             odo_pose[i, 0], odo_pose[i, 1], odo_pose[i, 2], ex, ey, eh
