@@ -254,7 +254,8 @@ class Odometry:
         return self._pose.copy()
 
     def reset(self, pose0: np.ndarray) -> None:
-        """Start N robots at ``pose0`` (N, 3); the next :meth:`update` latches the counts."""
+        """Start N robots at ``pose0`` (N, 3), headings wrapped to (-pi, pi]; the next
+        :meth:`update` latches the counts."""
         pose0 = np.asarray(pose0, dtype=np.float64)
         if pose0.ndim != 2 or pose0.shape[1] != 3:
             raise ValueError(f"odometry: pose0 must have shape (N, 3), got {pose0.shape}")

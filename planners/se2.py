@@ -38,7 +38,8 @@ def wrap_one(angle: float) -> float:
 @njit(cache=True, inline="always")
 def wrap_once(angle: float) -> float:
     """Wrap an angle in (-3 pi, 3 pi] to (-pi, pi] by at most one turn (a wrapped heading
-    plus a wrapped turn lies there). Branch-free selects, so compiled loops vectorise."""
+    plus a wrapped turn lies there). Two selects and no call, so compiled loops over a batch
+    vectorise through it."""
     a = angle - 2.0 * np.pi if angle > np.pi else angle
     return a + 2.0 * np.pi if a <= -np.pi else a
 
