@@ -16,19 +16,23 @@ step ``pose + R(theta) [dx, dy] , theta + dtheta``.
 * ``"+imu"``: heading comes from the integrated gyro; between gyro samples the base source
   (or, for two pods, the last gyro rate) fills in, and the next sample sets it right.
   With pods, the translation is the least-squares solution given that heading increment.
+
+The compiled tick is :func:`planners.odometry_kernels.odometry_kernel`: no trigonometric call
+for a turn under ``planners.se2.SERIES_MAX`` per tick, vectorised over the robots.
 """
 
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
 
-from planners.arrays import as_rows
+from planners.arrays import F8, as_rows
 from planners.errors import ScenarioError, did_you_mean, format_value
+from planners.odometry_kernels import OWN_HEADING, POSITIONS, USE_IMU, odometry_kernel
 from planners.readings import Readings
-from planners.se2 import compose_one, exp_one, wrap_one
+from planners.se2 import wrap
 
 SOURCES = ("encoders", "pods", "encoders+imu", "pods+imu")
+_BOOL = np.dtype(np.bool_)
 
 
 def pod_matrix(at: np.ndarray, direction: np.ndarray) -> np.ndarray:
@@ -148,50 +152,6 @@ def pod_twist_maps(
     return gain, couple, bool(own_heading)
 
 
-@njit(cache=True, inline="always")
-def count_increment(counts, prev, gain, i):
-    """Body displacement ``gain @ (counts - prev)`` of robot ``i`` over one tick (the counts
-    become the previous ones): dx, dy [m], dtheta [rad], body frame."""
-    dx = 0.0
-    dy = 0.0
-    dth = 0.0
-    for j in range(counts.shape[1]):
-        d = counts[i, j] - prev[i, j]
-        prev[i, j] = counts[i, j]
-        dx += gain[0, j] * d
-        dy += gain[1, j] * d
-        dth += gain[2, j] * d
-    return dx, dy, dth
-
-
-@njit(cache=True)
-def _odometry_kernel(
-    pose, counts, prev, gain, couple, own_heading, use_imu, gyro, valid, interval,
-    imu_heading, since, last_rate, dt, step, positions,
-):
-    n = counts.shape[0]
-    for i in range(n):
-        dx, dy, dth = count_increment(counts, prev, gain, i)
-        if use_imu:
-            if valid[i]:
-                imu_heading[i] += gyro[i] * interval[i]
-                since[i] = 0.0
-                last_rate[i] = gyro[i]
-            elif own_heading:
-                since[i] += dth
-            else:
-                since[i] += last_rate[i] * dt
-            dth = wrap_one(imu_heading[i] + since[i] - pose[i, 2])
-            dx += couple[0] * dth
-            dy += couple[1] * dth
-        ex, ey, eh = exp_one(dx, dy, dth)
-        step[i, 0], step[i, 1], step[i, 2] = ex, ey, eh
-        if positions:
-            pose[i, 0], pose[i, 1], pose[i, 2] = compose_one(pose[i, 0], pose[i, 1], pose[i, 2], ex, ey, eh)
-        else:  # the heading alone, as compose_one gives it
-            pose[i, 2] = wrap_one(pose[i, 2] + eh)
-
-
 class Odometry:
     """Dead reckoning for N robots from one counting source, optionally with IMU heading.
 
@@ -240,7 +200,6 @@ class Odometry:
         no_sideslip: bool = False,
         positions: bool = True,
     ) -> None:
-        self._positions = bool(positions)
         if source not in SOURCES:
             raise ScenarioError(
                 f"odometry: source must be one of {', '.join(map(repr, SOURCES))}, "
@@ -256,9 +215,9 @@ class Odometry:
             f = np.asarray(forward, dtype=np.float64)
             if f.ndim != 2 or f.shape[0] != 3:
                 raise ScenarioError(f"odometry: forward must have shape (3, W), got {f.shape}")
-            self._gain = np.ascontiguousarray(f * (2.0 * np.pi / float(counts_per_rev)))
-            self._couple = np.zeros(3)
-            self._own_heading = True
+            gain = f * (2.0 * np.pi / float(counts_per_rev))
+            couple = np.zeros(3)
+            own = True
         else:
             if pod_at is None or pod_direction is None or pod_radius is None or pod_counts_per_rev is None:
                 raise ScenarioError(
@@ -272,9 +231,13 @@ class Odometry:
             gain, couple, own = pod_twist_maps(
                 at, pod_direction, no_sideslip=no_sideslip, heading_given=self.use_imu
             )
-            self._gain = np.ascontiguousarray(gain * per_count[None, :])
-            self._couple = couple
-            self._own_heading = own
+            gain = gain * per_count[None, :]
+        # the kernel's gain: counts -> twist, then the twist's change per given dtheta
+        self._gain = np.ascontiguousarray(np.column_stack([gain, couple]))
+        self._flags = (
+            (USE_IMU if self.use_imu else 0) | (OWN_HEADING if own else 0)
+            | (POSITIONS if positions else 0)
+        )
         self._field = "encoder_counts" if source.startswith("encoders") else "pod_counts"
         self.reset(np.zeros((0, 3)))
 
@@ -291,17 +254,23 @@ class Odometry:
         return self._pose.copy()
 
     def reset(self, pose0: np.ndarray) -> None:
-        """Start N robots at ``pose0`` (N, 3); the next :meth:`update` latches the counts."""
+        """Start N robots at ``pose0`` (N, 3), headings wrapped to (-pi, pi]; the next
+        :meth:`update` latches the counts."""
         pose0 = np.asarray(pose0, dtype=np.float64)
         if pose0.ndim != 2 or pose0.shape[1] != 3:
             raise ValueError(f"odometry: pose0 must have shape (N, 3), got {pose0.shape}")
         n = pose0.shape[0]
         self._pose = np.ascontiguousarray(pose0.copy())
+        h = pose0[:, 2]
+        self._pose[:, 2] = np.where((h > -np.pi) & (h <= np.pi), h, wrap(h))
+        # cos, sin of each heading, turned along with it by the kernel
+        self._cs = np.stack([np.cos(self._pose[:, 2]), np.sin(self._pose[:, 2])])
+        self._counts_shape = (n, self._gain.shape[1] - 1)
         self._prev: np.ndarray | None = None
         self._t_prev = 0.0
-        self._imu_heading = pose0[:, 2].copy()
-        self._since = np.zeros(n)
-        self._last_rate = np.zeros(n)
+        # integrated gyro heading, turn since the last gyro sample, last gyro rate
+        self._imu = np.zeros((3, n))
+        self._imu[0] = self._pose[:, 2]
         self._step = np.zeros((n, 3))
         self._zeros = np.zeros(n)  # gyro stand-ins without an IMU (read only by the kernel)
         self._false = np.zeros(n, dtype=np.bool_)
@@ -322,36 +291,49 @@ class Odometry:
         ndarray, shape (N, 3) — pose estimate, field frame
         """
         counts = getattr(readings, self._field)
-        if counts is None:
-            raise ScenarioError(
-                f"odometry: readings.{self._field} must be present for source "
-                f"{self.source!r}, got None"
-            )
-        n = self._pose.shape[0]
-        if np.shape(counts) != (n, self._gain.shape[1]):
-            raise ValueError(
-                f"odometry: readings.{self._field} must have shape {(n, self._gain.shape[1])}, "
-                f"got {np.shape(counts)}"
-            )
-        counts = as_rows(counts, (n, self._gain.shape[1]))
+        shape = self._counts_shape
+        if not (
+            type(counts) is np.ndarray and counts.dtype is F8 and counts.shape == shape
+            and counts.flags.c_contiguous
+        ):
+            counts = self._counts_from(counts)
         if self._prev is None:
             self._prev = counts.copy()
             self._t_prev = readings.t
             return self._pose.copy() if copy else self._pose
         if self.use_imu:
-            if readings.gyro_rate is None or readings.imu_valid is None or readings.gyro_interval is None:
-                raise ScenarioError(
-                    f"odometry: readings.gyro_rate must be present for source {self.source!r}, got None"
-                )
-            gyro, valid, interval = readings.gyro_rate, readings.imu_valid, readings.gyro_interval
+            gyro, valid, interval = self._gyro_from(readings)
         else:
             gyro = interval = self._zeros
             valid = self._false
-        _odometry_kernel(
-            self._pose, counts, self._prev, self._gain, self._couple, self._own_heading,
-            self.use_imu, as_rows(gyro, (n,)), np.asarray(valid, np.bool_),
-            as_rows(interval, (n,)), self._imu_heading, self._since, self._last_rate,
-            float(readings.t - self._t_prev), self._step, self._positions,
+        odometry_kernel(
+            self._pose, self._cs, counts, self._prev, self._gain, self._flags, gyro, valid,
+            interval, self._imu, float(readings.t - self._t_prev), self._step,
         )
         self._t_prev = readings.t
         return self._pose.copy() if copy else self._pose
+
+    def _counts_from(self, counts: np.ndarray | None) -> np.ndarray:
+        # the slow path of update: counts that are missing, misshapen or need converting
+        if counts is None:
+            raise ScenarioError(
+                f"odometry: readings.{self._field} must be present for source "
+                f"{self.source!r}, got None"
+            )
+        if np.shape(counts) != self._counts_shape:
+            raise ValueError(
+                f"odometry: readings.{self._field} must have shape {self._counts_shape}, "
+                f"got {np.shape(counts)}"
+            )
+        return as_rows(counts, self._counts_shape)
+
+    def _gyro_from(self, readings: Readings) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        gyro, valid, interval = readings.gyro_rate, readings.imu_valid, readings.gyro_interval
+        if gyro is None or valid is None or interval is None:
+            raise ScenarioError(
+                f"odometry: readings.gyro_rate must be present for source {self.source!r}, got None"
+            )
+        n = (self._counts_shape[0],)
+        if not (type(valid) is np.ndarray and valid.dtype is _BOOL and valid.flags.c_contiguous):
+            valid = np.ascontiguousarray(valid, dtype=np.bool_)
+        return as_rows(gyro, n), valid, as_rows(interval, n)

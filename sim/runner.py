@@ -17,7 +17,7 @@ from numba import njit
 
 from planners.control import WheelController, feedforward_from_motor
 from planners.estimators import ESTIMATORS
-from planners.odometry import count_increment
+from planners.odometry_kernels import count_increment
 from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
@@ -80,15 +80,17 @@ def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo,
     the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"):
     ``odo`` (N, 5) holds x, y, heading and the heading's cos, sin, carried from tick to tick
     (planners.se2.turn_trig); the counts become the previous ones."""
-    for i in range(counts.shape[0]):
-        for j in range(counts.shape[1]):
+    n, w = counts.shape
+    flat, flat_prev = np.ascontiguousarray(counts).reshape(n * w), prev.reshape(n * w)
+    for i in range(n):
+        for j in range(w):
             speed[i, j] = (counts[i, j] - prev[i, j]) * count_to_speed
         for a in range(3):
             acc = 0.0
-            for j in range(counts.shape[1]):
+            for j in range(w):
                 acc += speed[i, j] * forward[a, j]
             twist[i, a] = acc
-        dx, dy, dth = count_increment(counts, prev, odo_gain, i)
+        dx, dy, dth = count_increment(flat, flat_prev, odo_gain, i, w)
         ex, ey, eh = exp_one(dx, dy, dth)
         c, s = odo[i, 3], odo[i, 4]
         odo[i, 0] += c * ex - s * ey

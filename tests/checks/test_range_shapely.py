@@ -63,3 +63,61 @@ def test_ray_that_hits_the_obstacle_first():
     sensors = Sensors(SensorSuite(range=SENSORS[:1]), field=field, wheel_count=2, dt=0.01)
     sensors.reset([np.random.default_rng(0)], POSES[:1])
     assert sensors.read(0.0, POSES[:1], np.zeros((1, 2))).ranges[0, 0] == pytest.approx(0.7, abs=1e-12)
+
+
+def _inside_dock(k: int, rng: np.random.Generator) -> np.ndarray:
+    # points on the loading dock's floor, off the obstacle (shapely decides)
+    field = loading_dock()
+    free = field.outline.difference(field.obstacle_shapes[0])
+    pts = rng.uniform([0.0, 0.0], [3.6, 4.2], (4 * k, 2))
+    return pts[shapely.contains_xy(free, pts[:, 0], pts[:, 1])][:k]
+
+
+def test_many_rays_cast_together_equal_shapely_distance_along_the_ray():
+    # 300 rays in one call take the blocked, vectorised path of the ray cast
+    field = loading_dock()
+    rng = np.random.default_rng(np.random.SeedSequence(300))
+    origin = _inside_dock(300, rng)
+    angle = rng.uniform(-np.pi, np.pi, origin.shape[0])
+    got = field.ray_cast(origin, angle, 3.0)
+    ref = np.array([shapely_range(field, o, a, 3.0) for o, a in zip(origin, angle)])
+    assert np.isinf(got).any() and np.isfinite(got).any()
+    np.testing.assert_array_equal(np.isinf(got), np.isinf(ref))
+    assert got[np.isfinite(got)] == pytest.approx(ref[np.isfinite(ref)], abs=1e-12)
+
+
+def test_rays_aimed_at_corners_hit_the_corner():
+    # A ray from inside a polygon must leave it; aimed at a corner it meets the boundary at
+    # that corner (shapely: the distance from the origin to the corner point), however the
+    # rounding of the two walls' end tests falls. The obstacle's corners, seen from outside
+    # it, are hit at the corner too. 2000 rays, both code paths (one call, and one by one).
+    field = loading_dock()
+    rng = np.random.default_rng(np.random.SeedSequence(4))
+    origin = _inside_dock(2000, rng)
+    corners = np.vstack([field.boundary, OBSTACLE])
+    aim = corners[rng.integers(0, len(corners), origin.shape[0])]
+    angle = np.arctan2(aim[:, 1] - origin[:, 1], aim[:, 0] - origin[:, 0])
+    walls = shapely.union_all([field.outline.boundary, *[o.boundary for o in field.obstacle_shapes]])
+    seen = np.array([
+        LineString([o, a]).intersection(walls).difference(Point(a).buffer(1e-9)).is_empty
+        for o, a in zip(origin, aim)
+    ])  # nothing in the way short of the corner
+    corner = np.array([Point(o).distance(Point(a)) for o, a in zip(origin, aim)])
+    together = field.ray_cast(origin, angle)
+    one_by_one = np.array([field.ray_cast(o[None], a)[0] for o, a in zip(origin[:200], angle[:200])])
+    assert seen.sum() > 1000
+    assert together[seen] == pytest.approx(corner[seen], abs=1e-12)
+    np.testing.assert_array_equal(one_by_one, together[:200])
+
+
+def test_rays_just_past_a_free_corner():
+    # along the diagonal through the obstacle's south-east corner (2.1, 1.5), from (1.1, 0.5)
+    # moved 1e-9 m up or right: one ray meets the obstacle's south face at about sqrt(2) m,
+    # the other slips past the corner to the east wall, 2.5 sqrt(2) m away (shapely, as
+    # the other checks)
+    field = loading_dock()
+    origin = np.array([[1.1, 0.5 + 1e-9], [1.1 + 1e-9, 0.5]])
+    angle = np.full(2, np.pi / 4)
+    ref = [shapely_range(field, o, a, 10.0) for o, a in zip(origin, angle)]
+    assert ref == pytest.approx([np.sqrt(2.0), 2.5 * np.sqrt(2.0)], abs=1e-8)
+    assert field.ray_cast(origin, angle) == pytest.approx(ref, abs=1e-12)

@@ -81,6 +81,40 @@ def test_batch_equals_one_robot_at_a_time():
         np.testing.assert_array_equal(run(make("pods"), pose0[i:i + 1], one), batch[i:i + 1])
 
 
+@pytest.mark.parametrize(
+    "source, positions", [("encoders+imu", True), ("pods", True), ("pods", False)]
+)
+def test_batch_across_the_vector_width_equals_one_robot_at_a_time(source, positions):
+    # 11 robots: one vectorised block of 8 and a scalar remainder; robots 2 and 9 turn
+    # 0.8 rad a tick, past SERIES_MAX, so they take the libm path inside the batch
+    rng = np.random.default_rng(11)
+    n = 11
+    twist = np.column_stack(
+        [rng.uniform(0, 1, n), rng.uniform(-0.3, 0.3, n), rng.uniform(-2, 2, n)]
+    )
+    twist[[2, 9], 2] = [80.0, -80.0]
+    pose0 = rng.uniform(-3, 3, (n, 3))
+    readings, _ = exact_readings(twist, pose0, 30, imu_every=3)
+    field = "encoder_counts" if source.startswith("encoders") else "pod_counts"
+    counts = [getattr(r, field) + rng.normal(0, 3, getattr(r, field).shape) for r in readings]
+
+    def last(rows: slice):
+        odo = make(source, positions=positions)
+        odo.reset(pose0[rows])
+        for r, c in zip(readings, counts):
+            odo.update(Readings(
+                t=r.t, **{field: c[rows]}, gyro_rate=r.gyro_rate[rows],
+                imu_valid=r.imu_valid[rows], gyro_interval=r.gyro_interval[rows],
+            ))
+        return odo.pose, odo.increment.copy()
+
+    batch = last(slice(None))
+    for i in range(n):
+        one = last(slice(i, i + 1))
+        np.testing.assert_array_equal(one[0], batch[0][i:i + 1])
+        np.testing.assert_array_equal(one[1], batch[1][i:i + 1])
+
+
 def test_imu_heading_replaces_a_wrong_encoder_heading():
     # encoders believe a 10 % narrower track (heading too fast); the gyro knows better
     wrong = Odometry(source="encoders+imu", forward=DIFF_F * [[1], [1], [1.1]], counts_per_rev=2 * np.pi)
