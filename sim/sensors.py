@@ -140,7 +140,7 @@ class Sensors:
         self._trig = np.column_stack([np.cos(pose0[:, 2]), np.sin(pose0[:, 2])])
         self._twist = np.zeros((n, 3))
         self._motion = bool(c.pods or c.imu is not None or c.range)
-        self._constants: dict = {}
+        self._imu_flags: dict[int, tuple[np.ndarray, np.ndarray]] = {}  # by ticks since the last sample
         self._no_draws = np.empty((0, n))
         self._hist = np.repeat(pose0[None], self._lag + 1, axis=0)
         # the readings of a tick without a fix: shared, read-only
@@ -178,7 +178,7 @@ class Sensors:
         # this sensor's draws for one sample; empty (N, 0) when it draws nothing
         if name not in self._draws:
             return self._no_draws, self._no_draws
-        return self._noise.take(name)
+        return self._noise.take(name, self._k)
 
     def _due(self, k: int, rate: float | None) -> bool:
         if rate is None or k == 0:
@@ -211,7 +211,6 @@ class Sensors:
                 raise ValueError(f"sensors: pose must have shape ({n}, 3), got {np.shape(pose)}")
         pose = as_rows(pose, (n, 3))
         self._k = k
-        self._noise.advance()
         if c.fixes is not None:
             self._hist[k % (self._lag + 1)] = pose
         out = Readings(t=float(t))
@@ -244,27 +243,22 @@ class Sensors:
 
     def _read_imu(self, k: int, out: Readings) -> None:
         imu = self.config.imu
-        due = k > 0 and self._due(k, imu.rate)
-        interval = (k - self._imu_last) * self.dt if due else 0.0
-        z = self._take("imu")[0] if due and self._imu_noisy else self._no_draws
+        due = k > 0 and (imu.rate is None or self._due(k, imu.rate))
+        steps = k - self._imu_last if due else 0
+        z = self._noise.take("imu", k)[0] if due and self._imu_noisy else self._no_draws
         out.gyro_rate = np.empty(self.n)
-        imu_kernel(self._twist, self._imu_state, z, out.gyro_rate, due, max(interval, 1e-300),
+        imu_kernel(self._twist, self._imu_state, z, out.gyro_rate, due, max(steps * self.dt, 1e-300),
                    imu.rate_noise, imu.bias_walk)
         if due:
             self._imu_last = k
-        out.imu_valid = self._constant(due, np.bool_)
-        out.gyro_interval = self._constant(interval, np.float64)
-
-    def _constant(self, value, dtype) -> np.ndarray:
-        # the same value for every robot, as a shared read-only (N,) array
-        key = (dtype, value)
-        arr = self._constants.get(key)
-        if arr is None:
-            if len(self._constants) > 64:
-                self._constants.clear()
-            arr = self._constants[key] = np.full(self.n, value, dtype=dtype)
-            arr.setflags(write=False)
-        return arr
+        # valid flags and sample interval, the same for every robot: shared read-only arrays
+        flags = self._imu_flags.get(steps)
+        if flags is None:
+            if len(self._imu_flags) > 64:
+                self._imu_flags.clear()
+            flags = self._imu_flags[steps] = (_frozen(np.full(self.n, due), bool),
+                                              _frozen(np.full(self.n, steps * self.dt)))
+        out.imu_valid, out.gyro_interval = flags
 
     def _read_fix(self, k: int, out: Readings) -> None:
         f, n = self.config.fixes, self.n

@@ -54,19 +54,15 @@ class SensorDraws:
             self._z[name] = np.empty((int(a), n))
             self._u[name] = np.empty((int(b), n))
         self.stride = words
-        self._tick = -1
 
-    def advance(self) -> None:
-        """Move on to the next control tick."""
-        self._tick += 1
-
-    def take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
-        """Sensor ``name``'s draws of this tick: normals (normals, N), uniforms (uniforms, N).
+    def take(self, name: str, tick: int) -> tuple[np.ndarray, np.ndarray]:
+        """Sensor ``name``'s draws of control tick ``tick``: normals (normals, N), uniforms
+        (uniforms, N).
 
         The arrays are the sensor's own buffers, valid until its next :meth:`take`.
         """
         oz, ou = self._offset[name]
-        base = self._tick * self.stride
+        base = tick * self.stride
         z, u = self._z[name], self._u[name]
         if z.shape[0]:
             fill_normals(self.keys, base + oz, z, EDGES, DENSITY)
