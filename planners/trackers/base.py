@@ -20,7 +20,7 @@ from typing import Any, ClassVar, NamedTuple, Protocol, runtime_checkable
 
 import numpy as np
 
-from planners.arrays import as_rows
+from planners.arrays import F8, as_rows
 from planners.errors import ScenarioError, did_you_mean, format_value
 from planners.params import REQUIRED, Param
 from planners.plan import Plan
@@ -171,6 +171,12 @@ class TrackerBase:
 
     def _check_batch(self, pose: np.ndarray, velocity: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         shape = (self.n, 3)
+        if (
+            type(pose) is np.ndarray and type(velocity) is np.ndarray and pose.dtype is F8
+            and velocity.dtype is F8 and pose.shape == shape and velocity.shape == shape
+            and pose.flags.c_contiguous and velocity.flags.c_contiguous and self.plan is not None
+        ):
+            return pose, velocity  # the usual case, checked at the cost of a few attributes
         if self.plan is None:
             raise RuntimeError(f"{type(self).__name__}.command: call reset(plan, n) first")
         if np.shape(pose) != shape or np.shape(velocity) != shape:
