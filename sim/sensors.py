@@ -7,9 +7,9 @@ so encoders see wheel spin as on a real robot).
 
 Between ticks the body is taken to move along the constant-twist arc joining the two
 poses (``log`` of the relative pose); pods and the gyro measure that arc exactly, before
-their own errors. Every random number of robot k comes from ``rngs[k]``, drawn in
-blocks shared by the sensors (:mod:`sim.sensors_noise`). Sample schedules are the same for every
-robot: a sensor with rate f has sample instants ``j / f`` after the start and reports at
+their own errors. Every random number of robot k comes from ``rngs[k]`` (one key drawn
+at reset; each draw a function of that key, the tick and the sensor: :mod:`sim.sensors_noise`),
+drawn only on the ticks a sensor samples. Sample schedules are the same for every robot: a sensor with rate f has sample instants ``j / f`` after the start and reports at
 the first tick at or after each. Latency rounds to a whole control tick.
 """
 
@@ -20,12 +20,11 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
-from planners import se2
 from planners.odometry import pod_matrix
 from planners.arrays import as_rows
 from planners.readings import Readings
 from sim.config_sensors import SensorSuite
-from sim.field import Field, ray_cast_kernel
+from sim.field import Field
 from sim.sensor_kernels import (
     encoder_kernel, fix_kernel, imu_kernel, landmark_kernel, motion_kernel, pod_kernel, range_kernel,
 )
