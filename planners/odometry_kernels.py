@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from planners.se2 import SERIES_MAX, arc_series, exp_one, wrap_once, wrap_one
+from planners.se2 import SERIES_MAX, arc_series, exp_one, turn_small, wrap_once, wrap_one
 
 #: bits of the ``flags`` argument of :func:`odometry_kernel`
 USE_IMU, OWN_HEADING, POSITIONS = 1, 2, 4
@@ -97,25 +97,20 @@ def _near_steps(pose, cos_h, sin_h, step, positions):
         dx, dy, t = q[3 * i], q[3 * i + 1], q[3 * i + 2]
         near = abs(t) <= SERIES_MAX
         move = near & positions  # selects, not branches: the loop stays vectorised
-        # arc (Sola 2018, eq. 156) and the turn's cos t = 1 - t B, sin t = t A
+        # arc (Sola 2018, eq. 156), and the carried cos, sin turned by t
         a, b = arc_series(t)
         ex = a * dx - b * dy
         ey = b * dx + a * dy
-        cu = 1.0 - t * b
-        su = t * a
+        c2, s2 = turn_small(c, s, t, a, b)
         # pose * exp(xi), as planners.se2.compose_one with the carried cos, sin
         x = x0 + c * ex - s * ey
         y = y0 + s * ex + c * ey
         h = wrap_once(h0 + t)
-        c2 = c * cu - s * su
-        s2 = s * cu + c * su
-        # one Newton step towards 1 / |(c2, s2)|: the rounding of the sums never piles up
-        k = 1.5 - 0.5 * (c2 * c2 + s2 * s2)
         p[3 * i] = x if move else x0
         p[3 * i + 1] = y if move else y0
         p[3 * i + 2] = h if near else h0
-        cos_h[i] = k * c2 if move else c
-        sin_h[i] = k * s2 if move else s
+        cos_h[i] = c2 if move else c
+        sin_h[i] = s2 if move else s
         q[3 * i] = ex if near else dx
         q[3 * i + 1] = ey if near else dy
         far += not near

@@ -68,24 +68,30 @@ def arc_series(theta: float) -> tuple[float, float]:
 
 
 @njit(cache=True, inline="always")
-def turn_trig(c: float, s: float, dtheta: float, heading: float) -> tuple[float, float]:
-    """cos and sin of ``heading``, given those of ``heading - dtheta`` and the turn ``dtheta``.
-
-    A small turn rotates ``(c, s)`` by ``cos dtheta = 1 - dtheta B``, ``sin dtheta = dtheta A``
-    from :func:`arc_series` (no trigonometric call, no division) and pulls the result back to
-    unit length, so rounding cannot build up over many turns; a turn beyond
-    :data:`SERIES_MAX` takes cos and sin of ``heading`` afresh.
-    """
-    if abs(dtheta) > SERIES_MAX:
-        return np.cos(heading), np.sin(heading)
-    a, b = arc_series(dtheta)
+def turn_small(c: float, s: float, dtheta: float, a: float, b: float) -> tuple[float, float]:
+    """``(c, s)`` turned by ``dtheta`` (``|dtheta| <= SERIES_MAX``), given its
+    :func:`arc_series` ``A``, ``B``: the angle sum with ``cos dtheta = 1 - dtheta B``,
+    ``sin dtheta = dtheta A``, then one Newton step towards unit length (the length is 1 to
+    rounding, so one suffices and rounding never piles up). Branch-free."""
     cd = 1.0 - dtheta * b
     sd = dtheta * a
     c2 = c * cd - s * sd
     s2 = s * cd + c * sd
-    # one Newton step towards 1 / |(c2, s2)| (its length is 1 to rounding, so one suffices)
     k = 1.5 - 0.5 * (c2 * c2 + s2 * s2)
     return k * c2, k * s2
+
+
+@njit(cache=True, inline="always")
+def turn_trig(c: float, s: float, dtheta: float, heading: float) -> tuple[float, float]:
+    """cos and sin of ``heading``, given those of ``heading - dtheta`` and the turn ``dtheta``.
+
+    A small turn rotates ``(c, s)`` by :func:`turn_small` (no trigonometric call, no
+    division); a turn beyond :data:`SERIES_MAX` takes cos and sin of ``heading`` afresh.
+    """
+    if abs(dtheta) > SERIES_MAX:
+        return np.cos(heading), np.sin(heading)
+    a, b = arc_series(dtheta)
+    return turn_small(c, s, dtheta, a, b)
 
 
 @njit(cache=True, inline="always")

@@ -17,11 +17,11 @@ from numba import njit
 
 from planners.control import WheelController, feedforward_from_motor
 from planners.estimators import ESTIMATORS
-from planners.odometry_kernels import count_increment
+from planners.odometry import Odometry
 from planners.odometry_geometry import assumed_forward_matrix
 from planners.plan import Plan
 from sim.planning import geometry, make_plan
-from planners.se2 import exp_one, turn_trig, wrap_one
+from planners.se2 import wrap_one
 from planners.trackers import TRACKERS
 from sim.scenario import Scenario, robot_value
 from sim.scoring import ScoreKeeper
@@ -74,30 +74,20 @@ def _judge_kernel(active, status, body, limits, finish, at_goal, late, codes):
 
 
 @njit(cache=True)
-def _encoder_motion_kernel(counts, prev, count_to_speed, forward, odo_gain, odo, speed, twist):
-    """From one tick of encoder counts: wheel speeds (counts - previous) * 2 pi / (cpr dt), their
-    body twist (row by row, as planners.kinematics), and the scorecard's dead reckoning with
-    the geometry the odometry assumes (as planners.odometry.Odometry, source "encoders"):
-    ``odo`` (N, 5) holds x, y, heading and the heading's cos, sin, carried from tick to tick
-    (planners.se2.turn_trig); the counts become the previous ones."""
+def _encoder_motion_kernel(counts, prev, count_to_speed, forward, speed, twist):
+    """From one tick of encoder counts: wheel speeds (counts - previous) * 2 pi / (cpr dt) and
+    their body twist (row by row, as planners.kinematics); the counts become the previous
+    ones."""
     n, w = counts.shape
-    flat, flat_prev = np.ascontiguousarray(counts).reshape(n * w), prev.reshape(n * w)
     for i in range(n):
         for j in range(w):
             speed[i, j] = (counts[i, j] - prev[i, j]) * count_to_speed
+            prev[i, j] = counts[i, j]
         for a in range(3):
             acc = 0.0
             for j in range(w):
                 acc += speed[i, j] * forward[a, j]
             twist[i, a] = acc
-        dx, dy, dth = count_increment(flat, flat_prev, odo_gain, i, w)
-        ex, ey, eh = exp_one(dx, dy, dth)
-        c, s = odo[i, 3], odo[i, 4]
-        odo[i, 0] += c * ex - s * ey
-        odo[i, 1] += s * ex + c * ey
-        h = wrap_one(odo[i, 2] + eh)
-        odo[i, 2] = h
-        odo[i, 3], odo[i, 4] = turn_trig(c, s, eh, h)
 
 
 #: stream numbers inside one run's SeedSequence
@@ -165,13 +155,16 @@ class Simulation:
         self._needs_truth = getattr(self.estimator, "NEEDS_TRUTH", False)
         self.estimator.reset(pose0, n, rngs=[np.random.default_rng(s[_ESTIMATOR]) for s in streams])
         # the scorecard's encoder dead reckoning, with the geometry the odometry assumes
-        # x, y, heading and the heading's cos, sin; odometry_pose is the pose columns
-        self._odo = np.column_stack([pose0, np.cos(pose0[:, 2]), np.sin(pose0[:, 2])])
-        self.odometry_pose = self._odo[:, :3] if sc.sensors.encoders is not None else None
+        self.odometry: Odometry | None = None
+        self.odometry_pose = None
         if sc.sensors.encoders is not None:
             enc = sc.sensors.encoders
-            forward = assumed_forward_matrix(self.geom, radius_scale=enc.radius_scale, track_scale=enc.track_scale)
-            self._odo_gain = np.ascontiguousarray(forward * (2.0 * math.pi / enc.counts_per_rev))
+            self.odometry = Odometry(
+                source="encoders", counts_per_rev=enc.counts_per_rev,
+                forward=assumed_forward_matrix(self.geom, radius_scale=enc.radius_scale, track_scale=enc.track_scale),
+            )
+            self.odometry.reset(pose0)
+            self.odometry_pose = pose0.copy()
         self.tracker = TRACKERS.get(sc.tracker.kind)(chassis=robot.chassis, **sc.tracker.params)
         self.tracker.reset(self.plan, n)
         m = robot.motor
@@ -244,10 +237,8 @@ class Simulation:
             self._prev_counts = counts.copy()
         speed = np.empty(counts.shape)
         twist = np.empty((counts.shape[0], 3))
-        _encoder_motion_kernel(
-            counts, self._prev_counts, self._count_to_speed, self._forward, self._odo_gain,
-            self._odo, speed, twist,
-        )
+        _encoder_motion_kernel(counts, self._prev_counts, self._count_to_speed, self._forward, speed, twist)
+        self.odometry_pose = self.odometry.update(readings, copy=False)
         return speed, twist
 
     def step(self) -> bool:

@@ -170,11 +170,10 @@ class Sensors:
                 np.zeros(n),
             ])
             self._imu_last = 0
-            self._imu_noisy = "imu" in self._draws
 
     # ------------------------------------------------------------------ schedule
     def _take(self, name: str) -> tuple[np.ndarray, np.ndarray]:
-        # this sensor's draws for one sample; empty (N, 0) when it draws nothing
+        # this sensor's draws for one sample; empty (0, N) when it draws nothing
         if name not in self._draws:
             return self._no_draws, self._no_draws
         return self._noise.take(name, self._k)
@@ -224,7 +223,7 @@ class Sensors:
                     )
             e = c.encoders
             out.encoder_counts = np.empty(shape)
-            z = self._take("enc")[0] if e.noise > 0.0 else self._no_draws
+            z, _ = self._take("enc")
             encoder_kernel(as_rows(wheel_angle, shape), self._counts_per_rad, e.noise, e.quantise, z,
                            out.encoder_counts)
         if c.pods:
@@ -242,9 +241,9 @@ class Sensors:
 
     def _read_imu(self, k: int, out: Readings) -> None:
         imu = self.config.imu
-        due = k > 0 and (imu.rate is None or self._due(k, imu.rate))
+        due = k > 0 and self._due(k, imu.rate)
         steps = k - self._imu_last if due else 0
-        z = self._noise.take("imu", k)[0] if due and self._imu_noisy else self._no_draws
+        z = self._take("imu")[0] if due else self._no_draws
         out.gyro_rate = np.empty(self.n)
         imu_kernel(self._twist, self._imu_state, z, out.gyro_rate, due, max(steps * self.dt, 1e-300),
                    imu.rate_noise, imu.bias_walk)
