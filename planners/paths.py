@@ -192,16 +192,11 @@ class Path:
         return np.concatenate([*pieces, self.knot_s[-1:]])
 
     @cached_property
-    def polyline(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Arc length, x and y of the path every 5 mm (or finer), for projection."""
+    def _segments(self) -> np.ndarray:
+        # the path every 5 mm (or finer), packed for the compiled projection
         s = self.grid(0.005)
         xy = self.evaluate(s).xy
-        return s, np.ascontiguousarray(xy[:, 0]), np.ascontiguousarray(xy[:, 1])
-
-    @cached_property
-    def _segments(self) -> np.ndarray:
-        ps, px, py = self.polyline
-        return segment_block(px, py, ps)
+        return segment_block(xy[:, 0], xy[:, 1], s)
 
     def project(
         self, points: np.ndarray, s_prev: np.ndarray, *, back: float = 0.05, ahead: float = 0.5
