@@ -23,6 +23,31 @@ def bench_robot(chassis: str):
     )
 
 
+class PhysicsTicks:
+    """Control ticks of ``World.advance`` (5 sub-steps of 1 ms) for N bench robots, warmed up.
+
+    Parameters
+    ----------
+    chassis : str — of :func:`bench_robot`
+    n : int — robots
+    threads : bool — allow numba's threads (the World's adaptive choice); False: one thread
+    """
+
+    DT = 0.005
+
+    def __init__(self, chassis: str, n: int, *, threads: bool = True) -> None:
+        self.world = World(bench_robot(chassis), n, threads=threads)
+        self.duty = np.tile(np.linspace(-0.8, 0.9, self.world.geom.wheels), (n, 1))
+        self.world.advance(self.duty, self.DT)  # compile / warm
+
+    def time(self, ticks: int) -> float:
+        """Mean wall time of one tick over ``ticks`` ticks [s]."""
+        start = time.perf_counter()
+        for _ in range(ticks):
+            self.world.advance(self.duty, self.DT)
+        return (time.perf_counter() - start) / ticks
+
+
 def bench_physics(*, quick: bool = False) -> dict:
     """Robot-substeps per second for N = 1, 100, 1000, 10000 for each chassis.
 
@@ -32,17 +57,10 @@ def bench_physics(*, quick: bool = False) -> dict:
     sizes = (1, 100, 1000) if quick else (1, 100, 1000, 10000)
     out: dict = {}
     for chassis in ("mecanum", "skid", "differential"):
-        r = bench_robot(chassis)
         for n in sizes:
-            world = World(r, n)
-            duty = np.tile(np.linspace(-0.8, 0.9, world.geom.wheels), (n, 1))
-            world.advance(duty, 0.005)  # compile / warm
-            ticks = max(3, int(20000 / n)) if not quick else max(2, int(4000 / n))
-            wall = float("inf")
-            for _ in range(1 if quick else 5):  # the best of five: other work on a shared machine
-                start = time.perf_counter()
-                for _ in range(ticks):
-                    world.advance(duty, 0.005)
-                wall = min(wall, time.perf_counter() - start)
-            out[f"{chassis}_n{n}"] = ticks * 5 * n / wall
+            ticks = PhysicsTicks(chassis, n)
+            count = max(3, int(20000 / n)) if not quick else max(2, int(4000 / n))
+            # the best of five: other work on a shared machine only slows a run
+            per_tick = min(ticks.time(count) for _ in range(1 if quick else 5))
+            out[f"{chassis}_n{n}"] = 5 * n / per_tick
     return out

@@ -21,8 +21,7 @@ from planners.se2 import compose, exp
 from sim.config_sensors import Encoders, Fixes, Imu, Pod, RangeSensor, SensorSuite
 from sim.field import Field, Landmark
 from sim.sensors import Sensors
-from sim.bench_physics import bench_robot
-from sim.world import World
+from sim.bench_physics import PhysicsTicks
 
 _TICKS = 128  # ticks timed per repeat (after as many warm-up ticks)
 _REPEATS = 5
@@ -98,22 +97,6 @@ def _time_ticks(n: int, ticks: int) -> dict[str, float]:
     return out
 
 
-class _PhysicsTick:
-    """One control tick of ``World.advance`` for N robots (mecanum, as sim.bench_physics), on
-    one thread like the sensors (the World's adaptive threading off)."""
-
-    def __init__(self, n: int) -> None:
-        self.world = World(bench_robot("mecanum"), n, threads=False)
-        self.duty = np.tile(np.linspace(-0.8, 0.9, self.world.geom.wheels), (n, 1))
-        self.world.advance(self.duty, _DT)
-
-    def time(self, ticks: int) -> float:
-        start = time.perf_counter()
-        for _ in range(ticks):
-            self.world.advance(self.duty, _DT)
-        return (time.perf_counter() - start) / ticks
-
-
 def bench_sensors(*, sizes: tuple[int, ...] = (1, 1000), ticks: int = _TICKS, quick: bool = False) -> dict:
     """Time one control tick of all sensors plus odometry, and one physics step, per N.
 
@@ -135,7 +118,7 @@ def bench_sensors(*, sizes: tuple[int, ...] = (1, 1000), ticks: int = _TICKS, qu
     repeats = 1 if quick else _REPEATS
     out = {}
     for n in sizes:
-        physics = _PhysicsTick(n)
+        physics = PhysicsTicks("mecanum", n, threads=False)  # one thread, like the sensors
         runs, steps = [], []
         for _ in range(repeats):  # interleaved, so a change of load meets both alike
             runs.append(_time_ticks(n, ticks))
