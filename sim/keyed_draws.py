@@ -27,6 +27,8 @@ from collections.abc import Sequence
 import numpy as np
 from numba import njit
 
+from planners.estimators import draws
+
 GAMMA = np.uint64(0x9E3779B97F4A7C15)  # SplitMix64 increment (2^64 / golden ratio, odd)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
@@ -149,10 +151,7 @@ def fill_uniforms(keys, counter0, out):
 
 def robot_keys(rngs: Sequence[np.random.Generator]) -> np.ndarray:
     """One 64-bit key per robot, shape (N,) uint64, drawn from each robot's own generator."""
-    keys = np.zeros(len(rngs), dtype=np.uint64)
-    for k, g in enumerate(rngs):
-        keys[k] = g.integers(0, np.iinfo(np.uint64).max, dtype=np.uint64, endpoint=True)
-    return keys
+    return np.ascontiguousarray(draws.robot_keys(list(rngs), words=1)[:, 0])
 
 
 def normals(keys: np.ndarray, counter0: int, count: int) -> np.ndarray:

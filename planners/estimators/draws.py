@@ -87,11 +87,12 @@ def normals4(key, i, tick, index, purpose):
     return r0 * np.cos(a0), r0 * np.sin(a0), r1 * np.cos(a1), r1 * np.sin(a1)
 
 
-def robot_keys(rngs: list[np.random.Generator]) -> np.ndarray:
-    """One 128-bit key per robot, shape (N, 2) uint64, drawn from each robot's own generator."""
-    keys = np.zeros((len(rngs), 2), dtype=np.uint64)
+def robot_keys(rngs: list[np.random.Generator], words: int = 2) -> np.ndarray:
+    """One key of ``words`` 64-bit words per robot (128 bits by default), shape (N, words)
+    uint64, drawn from each robot's own generator."""
+    keys = np.zeros((len(rngs), words), dtype=np.uint64)
     for k, g in enumerate(rngs):
-        keys[k] = g.integers(0, np.iinfo(np.uint64).max, size=2, dtype=np.uint64, endpoint=True)
+        keys[k] = g.integers(0, np.iinfo(np.uint64).max, size=words, dtype=np.uint64, endpoint=True)
     return keys
 
 
