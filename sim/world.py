@@ -6,7 +6,6 @@ import dataclasses
 import math
 from collections.abc import Mapping
 
-
 import numpy as np
 
 from planners.arrays import F8
